@@ -1,0 +1,27 @@
+# Quick start: `make demo` audits the bundled demo design, `make test` runs the test suite.
+# Both create .venv and install what they need on first use.
+
+PYTHON ?= python3
+VENV := .venv
+BIN := $(VENV)/bin
+STAMP := $(VENV)/.installed-stamp
+
+.PHONY: demo test bench clean
+
+$(STAMP): pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+	$(BIN)/python -m pip install --quiet -e '.[test]' --config-settings editable_mode=compat
+	touch $(STAMP)
+
+demo: $(STAMP)
+	$(BIN)/schemcheck netlist fixtures/reader/hier/hier.kicad_sch --format text
+
+test: $(STAMP)
+	$(BIN)/python -m pytest
+
+bench: $(STAMP)
+	for b in bench/bench_*.py; do $(BIN)/python $$b || exit 1; done
+
+clean:
+	rm -rf $(VENV) .pytest_cache .hypothesis

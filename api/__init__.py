@@ -1,0 +1,1 @@
+"""The local HTTP service (built in a later step)."""

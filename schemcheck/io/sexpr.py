@@ -1,0 +1,275 @@
+"""Fast S-expression reader for KiCad files.
+
+Produces exactly the nested lists that ``kiutils.utils.sexpr.parse_sexp`` produces, so the
+trees can be handed to kiutils' ``from_sexpr`` unchanged:
+
+* numbers are the tokens kiutils' grammar calls numbers (``[+-]?d+.d+`` or ``-?d+``,
+  followed by a space or ``)``), converted with ``float`` and turned into ``int`` when
+  integral;
+* quoted strings are unquoted; with ``compat=True`` only ``\\"`` is unescaped, as kiutils
+  does; by default every escape KiCad's writer emits (``\\\\``, ``\\"``, ``\\n``, ``\\r``,
+  ``\\t``) is decoded, so ``C:\\\\lib`` reads back as ``C:\\lib``;
+* everything else is a bare string.
+
+Two paths give the same tree. The fast path tokenizes with one group-free regex and
+classifies each token by its first character (about 5x kiutils' speed, see
+``bench/bench_netlist.py``). It bails out to the exact path, a transcription of kiutils'
+grammar, on anything where the two could differ (a ``^`` anywhere, a quote that does not
+close a string, unbalanced brackets, and in compat mode an escaped backslash). The exact
+path also produces the error messages.
+
+Unlike kiutils, malformed input raises :class:`~schemcheck.errors.ParseError` with line,
+column and what was expected (kiutils raises a bare ``AssertionError``), and nesting
+depth is bounded so no later recursive walk can overflow the stack.
+"""
+
+from __future__ import annotations
+
+import gc
+import re
+from contextlib import contextmanager
+from typing import Any, Iterator
+
+from ..errors import ParseError
+
+#: kiutils 1.4.8's ``term_regex``, written without verbose mode.
+_KIUTILS_TOKEN = re.compile(
+    r"""\s*(?:(\()|(\))|([+-]?\d+\.\d+(?=[ )])|-?\d+(?=[ )]))|("(?:[^"]|(?<=\\)")*"(?=[)\s]))|([^(^)\s]+))"""
+)
+#: The same grammar with KiCad's own string rule (a backslash escapes the next character).
+_PROPER_TOKEN = re.compile(
+    r"""\s*(?:(\()|(\))|([+-]?\d+\.\d+(?=[ )])|-?\d+(?=[ )]))|("(?:[^"\\]|\\.)*"(?=[)\s]))|([^(^)\s]+))"""
+)
+#: Fast path: no groups. A bare token carries one extra character when what follows it
+#: changes its reading in kiutils' grammar (``(`` or whitespace other than a space: not a
+#: number). A lone ``"`` is a quote that does not close a string: bail out.
+_FAST_TOKEN = re.compile(
+    r"""\(|\)|"[^"\\]*+(?:\\.[^"\\]*+)*+"(?=[)\s])|[^\s()"^][^\s()^]*+(?:(?=[ )])|[^\S ]|\(|\Z)|\""""
+)
+_NUMBER = re.compile(r"[+-]?\d+\.\d+|-?\d+").fullmatch
+_OPENS = object()  # marker: a bare token glued to a following '('
+
+#: Deeper than any KiCad file nests (about 12); deep enough for odd generators.
+MAX_DEPTH = 256
+
+_ESCAPES = {"n": "\n", "r": "\r", "t": "\t", "\\": "\\", '"': '"'}
+_ESCAPE_RE = re.compile(r"\\(.)", re.S)
+
+
+def _unescape(body: str) -> str:
+    return _ESCAPE_RE.sub(lambda m: _ESCAPES.get(m.group(1), m.group(0)), body)
+
+
+def _number(token: str) -> int | float:
+    value = float(token)
+    return int(value) if value.is_integer() else value
+
+
+def _bare(token: str) -> Any:
+    last = token[-1]
+    if last == "(":
+        return _OPENS
+    if last.isspace():
+        return token[:-1]
+    if _NUMBER(token):
+        return _number(token)
+    return token
+
+
+def parse(text: str, *, compat: bool = False, file: str | None = None) -> list[Any]:
+    """Parse the first S-expression in ``text`` into nested lists.
+
+    ``compat=True`` reproduces kiutils' string handling exactly (only ``\\"`` is
+    unescaped). Raises :class:`ParseError` naming ``file``, line and column.
+    """
+    with collector_paused():
+        tree = _parse_fast(text, compat)
+        if tree is None:
+            tree = _parse_exact(text, compat, file)
+        return tree
+
+
+@contextmanager
+def collector_paused() -> Iterator[None]:
+    """Pause Python's cyclic garbage collector (restoring its state after).
+
+    Trees and netlists are acyclic, so collections while building them find nothing;
+    on a large sheet they cost more than the parse itself (full collections walk every
+    list of the tree).
+    """
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
+
+
+def _parse_fast(text: str, compat: bool) -> list[Any] | None:
+    """The tree, or None where the exact path must decide (odd or malformed input)."""
+    if "^" in text or (compat and "\\\\" in text):
+        return None
+    unescape = (lambda body: body.replace('\\"', '"')) if compat else _unescape
+    stack: list[list[Any]] = []
+    out: list[Any] = []
+    push = stack.append
+    pop = stack.pop
+    memo: dict[str, Any] = {}
+    recall = memo.get
+    for token in _FAST_TOKEN.findall(text):
+        first = token[0]
+        if first == "(":
+            push(out)
+            out = []
+            if len(stack) > MAX_DEPTH:
+                return None
+        elif first == ")":
+            if not stack:
+                return None
+            parent = pop()
+            parent.append(out)
+            out = parent
+        elif first == '"':
+            if len(token) == 1:
+                return None
+            body = token[1:-1]
+            out.append(unescape(body) if "\\" in body else body)
+        else:
+            value = recall(token)
+            if value is None:
+                value = memo[token] = _bare(token)
+            if value is _OPENS:
+                out.append(token[:-1])
+                push(out)
+                out = []
+                if len(stack) > MAX_DEPTH:
+                    return None
+            else:
+                out.append(value)
+    if stack or not out:
+        return None
+    return out[0]
+
+
+def _parse_exact(text: str, compat: bool, file: str | None) -> list[Any]:
+    stack: list[list[Any]] = []
+    out: list[Any] = []
+    token_re = _KIUTILS_TOKEN if compat else _PROPER_TOKEN
+    for lbr, rbr, num, quoted, bare in token_re.findall(text):
+        if lbr:
+            stack.append(out)
+            out = []
+            if len(stack) > MAX_DEPTH:
+                _fail_depth(text, file)
+        elif rbr:
+            if not stack:
+                _fail_unbalanced(text, file)
+            parent = stack.pop()
+            parent.append(out)
+            out = parent
+        elif num:
+            out.append(_number(num))
+        elif quoted:
+            body = quoted[1:-1]
+            if "\\" in body:
+                body = body.replace('\\"', '"') if compat else _unescape(body)
+            out.append(body)
+        else:
+            out.append(bare)
+    if stack:
+        _fail_unclosed(text, file)
+    if not out:
+        raise ParseError("expected an S-expression starting with '(', found no data",
+                         file=file, line=1, column=1, snippet=text.split("\n", 1)[0])
+    return out[0]
+
+
+# ---------------------------------------------------------------------------
+# Error location: only on the slow path, by re-scanning with positions.
+
+def _position(text: str, offset: int) -> tuple[int, int, str]:
+    line = text.count("\n", 0, offset) + 1
+    start = text.rfind("\n", 0, offset) + 1
+    end = text.find("\n", offset)
+    return line, offset - start + 1, text[start: end if end >= 0 else len(text)]
+
+
+def _error_at(text: str, offset: int, message: str, file: str | None) -> ParseError:
+    line, column, snippet = _position(text, offset)
+    return ParseError(message, file=file, line=line, column=column, snippet=snippet)
+
+
+def _scan_brackets(text: str):
+    """Yield (kind, offset) for each bracket token, in kiutils' tokenization."""
+    for match in _KIUTILS_TOKEN.finditer(text):
+        if match.group(1):
+            yield "(", match.start(1)
+        elif match.group(2):
+            yield ")", match.start(2)
+
+
+def _fail_unbalanced(text: str, file: str | None) -> None:
+    depth = 0
+    for kind, offset in _scan_brackets(text):
+        depth += 1 if kind == "(" else -1
+        if depth < 0:
+            raise _error_at(text, offset, "unbalanced ')': no '(' is open here", file)
+    raise ParseError("unbalanced ')'", file=file)  # pragma: no cover - defensive
+
+
+def _fail_unclosed(text: str, file: str | None) -> None:
+    open_at: list[int] = []
+    for kind, offset in _scan_brackets(text):
+        if kind == "(":
+            open_at.append(offset)
+        elif open_at:
+            open_at.pop()
+    end = len(text.rstrip())
+    message = "expected ')' but the file ends here: it is truncated or its brackets are unbalanced"
+    if open_at:
+        line, column, snippet = _position(text, open_at[-1])
+        word = re.match(r"\(\s*([^\s()]*)", text[open_at[-1]:open_at[-1] + 80])
+        head = "(" + (word.group(1) if word else "")
+        message += f" ('{head}' opened at line {line}, column {column} is never closed)"
+    raise _error_at(text, end, message, file)
+
+
+def _fail_depth(text: str, file: str | None) -> None:
+    depth = 0
+    for kind, offset in _scan_brackets(text):
+        depth += 1 if kind == "(" else -1
+        if depth > MAX_DEPTH:
+            raise _error_at(text, offset, f"expected at most {MAX_DEPTH} nested lists, "
+                            "found deeper nesting", file)
+    raise ParseError("nesting too deep", file=file)  # pragma: no cover - defensive
+
+
+def locate(text: str, path: tuple[int, ...]) -> tuple[int, int, str]:
+    """Line, column and source line of the node reached by list indices ``path``.
+
+    ``path`` indexes from the top-level list, e.g. ``(5, 2)`` is the third element of
+    the sixth element of the root. Used to report a bad value found after parsing.
+    """
+    stack: list[int] = []
+    counts: list[int] = [0]
+    target = list(path)
+    for match in _KIUTILS_TOKEN.finditer(text):
+        if match.group(2):
+            if stack:
+                stack.pop()
+                counts.pop()
+                counts[-1] += 1
+            continue
+        start = match.start(1) if match.group(1) else match.start(0) + len(match.group(0)) - len(
+            match.group(0).lstrip()
+        )
+        position = stack + [counts[-1]]
+        if len(stack) >= 1 and position[1:] == target:
+            return _position(text, start)
+        if match.group(1):
+            stack.append(counts[-1])
+            counts.append(0)
+        else:
+            counts[-1] += 1
+    return _position(text, 0)

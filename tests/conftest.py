@@ -1,0 +1,56 @@
+"""Shared test fixtures.
+
+The real-world corpus lives outside the repository (``../shared/corpus`` beside the
+clone, or ``$SCHEMCHECK_CORPUS``); tests that need it skip cleanly where it is absent.
+"""
+
+from __future__ import annotations
+
+import csv
+import os
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+FIXTURES = ROOT / "fixtures"
+
+
+def corpus_dir() -> Path | None:
+    env = os.environ.get("SCHEMCHECK_CORPUS")
+    candidates = [Path(env)] if env else []
+    candidates.append(ROOT.parent / "shared" / "corpus")
+    for candidate in candidates:
+        if (candidate / "SOURCES.tsv").is_file():
+            return candidate
+    return None
+
+
+CORPUS = corpus_dir()
+needs_corpus = pytest.mark.skipif(CORPUS is None, reason="../shared/corpus is not present")
+
+
+def corpus_files(suffix: str = ".kicad_sch") -> list[Path]:
+    """Every corpus file with ``suffix``, as listed in SOURCES.tsv (empty without corpus)."""
+    if CORPUS is None:
+        return []
+    with open(CORPUS / "SOURCES.tsv", encoding="utf-8", newline="") as handle:
+        rows = list(csv.DictReader(handle, delimiter="\t"))
+    out = []
+    for row in rows:
+        owner_repo = row["repo"].replace("/", "__")
+        path = CORPUS / owner_repo / row["path"]
+        if path.suffix == suffix and path.is_file():
+            out.append(path)
+    return out
+
+
+def corpus_ids(paths: list[Path]) -> list[str]:
+    return [str(p.relative_to(CORPUS)) if CORPUS else str(p) for p in paths]
+
+
+@pytest.fixture
+def corpus() -> Path:
+    if CORPUS is None:
+        pytest.skip("../shared/corpus is not present")
+    return CORPUS

@@ -1,0 +1,128 @@
+"""The fast S-expression reader against kiutils' own (the reference implementation).
+
+Outside source: kiutils 1.4.8 (PyPI), ``kiutils.utils.sexpr.parse_sexp`` and
+``kiutils.schematic.Schematic.from_sexpr``; every expected tree below is what kiutils
+itself returns for the same text.
+"""
+
+from __future__ import annotations
+
+import pytest
+from kiutils.schematic import Schematic
+from kiutils.utils.sexpr import parse_sexp
+
+from schemcheck.errors import ParseError
+from schemcheck.io import sexpr
+from schemcheck.io.files import read_text
+
+from .conftest import FIXTURES, corpus_files, corpus_ids
+
+CORPUS_SCH = corpus_files(".kicad_sch")
+CORPUS_ALL = CORPUS_SCH + corpus_files(".net")
+FIXTURE_FILES = sorted(FIXTURES.rglob("*.kicad_sch")) + sorted(FIXTURES.rglob("*.net"))
+
+
+@pytest.mark.parametrize("path", CORPUS_ALL + FIXTURE_FILES,
+                         ids=corpus_ids(CORPUS_ALL) + [p.name for p in FIXTURE_FILES])
+def test_tree_identical_to_kiutils(path):
+    # Outside source: kiutils' parse_sexp on the same UTF-8 text.
+    text = read_text(path)
+    assert sexpr.parse(text, compat=True) == parse_sexp(text)
+
+
+@pytest.mark.parametrize("path", CORPUS_ALL + FIXTURE_FILES,
+                         ids=corpus_ids(CORPUS_ALL) + [p.name for p in FIXTURE_FILES])
+def test_exact_path_agrees_with_fast_path(path):
+    text = read_text(path)
+    assert sexpr._parse_exact(text, False, None) == sexpr.parse(text)
+
+
+@pytest.mark.parametrize("path", CORPUS_SCH + [p for p in FIXTURE_FILES if p.suffix == ".kicad_sch"],
+                         ids=corpus_ids(CORPUS_SCH) + [p.name for p in FIXTURE_FILES
+                                                         if p.suffix == ".kicad_sch"])
+def test_kiutils_objects_identical(path):
+    # Outside source: kiutils' object model built from kiutils' own tree.
+    text = read_text(path)
+    assert Schematic.from_sexpr(sexpr.parse(text, compat=True)) == Schematic.from_sexpr(
+        parse_sexp(text))
+
+
+@pytest.mark.parametrize(
+    "text",
+    [
+        pytest.param("(a 1.0 2.50 -0.0 -3)", id="integral-floats-become-int"),
+        pytest.param("(a +5 +1.5 1e3 .5 5.)", id="kiutils-number-grammar"),
+        pytest.param("(a 5\n 6\t7)", id="number-before-newline-is-text"),
+        pytest.param("(a 5(b))", id="number-glued-to-bracket-is-text"),
+        pytest.param("(a 007 12345678901234567890)", id="leading-zero-and-huge-int"),
+        pytest.param('(a "x \\"q\\" y" "")', id="escaped-quotes"),
+        pytest.param('(a "multi\nline" b)', id="raw-newline-in-string"),
+        pytest.param('(a "Ω µ ±")', id="non-ascii"),
+        pytest.param("(a ^b c^d)", id="caret-skipped"),
+        pytest.param('(a "open)', id="unclosed-quote-falls-back"),
+        pytest.param('(a abc"def ghi")', id="quote-inside-bare-token"),
+        pytest.param("(a) (b)", id="only-first-expression"),
+        pytest.param("(a ٣ 1.5)", id="unicode-digit"),
+    ],
+)
+def test_edge_cases_match_kiutils(text):
+    # Outside source: kiutils' parse_sexp on each string.
+    assert sexpr.parse(text, compat=True) == parse_sexp(text)
+    assert [type(x) for x in sexpr.parse(text, compat=True)] == [type(x) for x in parse_sexp(text)]
+
+
+def test_default_mode_decodes_kicad_escapes():
+    # KiCad's writer escapes backslash, quote and newline (OUTPUTFORMATTER::Quotes,
+    # from memory of KiCad's source); kiutils only undoes \" (kiutils 1.4.8 sexpr.py).
+    text = r'(a "C:\\lib\\x" "two\nlines" "say \"hi\"")'
+    assert sexpr.parse(text) == ["a", "C:\\lib\\x", "two\nlines", 'say "hi"']
+    assert sexpr.parse(text, compat=True) == parse_sexp(text)
+
+
+@pytest.mark.skipif(not any("HaasoscopePro" in str(p) for p in CORPUS_SCH),
+                    reason="corpus file with \\n escapes not present")
+def test_real_file_newline_escapes():
+    # The real file's Description properties contain "\n\nSource:" escapes.
+    path = next(p for p in CORPUS_SCH if "Input_amps_1" in p.name)
+    tree = sexpr.parse(read_text(path))
+    descriptions = [item[2] for sym in tree if isinstance(sym, list) and sym[0] == "lib_symbols"
+                    for lib in sym[1:] for item in lib
+                    if isinstance(item, list) and item[:2] == ["property", "Description"]]
+    assert any("\n\nSource:" in d for d in descriptions)
+    assert not any("\\n" in d for d in descriptions)
+
+
+@pytest.mark.parametrize(
+    ("text", "line", "column", "message"),
+    [
+        pytest.param("(kicad_sch\n  (a 1))\n)", 3, 1, "unbalanced ')': no '(' is open here",
+                     id="extra-close"),
+        pytest.param("(kicad_sch\n  (symbol (at 1 2)\n", 2, 19,
+                     "expected ')' but the file ends here: it is truncated or its brackets are "
+                     "unbalanced ('(symbol' opened at line 2, column 3 is never closed)",
+                     id="truncated"),
+        pytest.param("", 1, 1, "expected an S-expression starting with '(', found no data",
+                     id="empty"),
+        pytest.param("(" * 300 + ")" * 300, 1, 257,
+                     "expected at most 256 nested lists, found deeper nesting", id="too-deep"),
+    ],
+)
+def test_malformed_input_is_located(text, line, column, message):
+    with pytest.raises(ParseError) as caught:
+        sexpr.parse(text, file="bad.kicad_sch")
+    error = caught.value
+    assert (error.file, error.line, error.column, error.message) == (
+        "bad.kicad_sch", line, column, message)
+
+
+def test_kiutils_raises_bare_assertion_where_we_locate():
+    # The reason our reader reports malformed files itself: kiutils' parser asserts.
+    with pytest.raises(AssertionError):
+        parse_sexp("(a (b)")
+    with pytest.raises(ParseError):
+        sexpr.parse("(a (b)")
+
+
+def test_locate_finds_nested_node():
+    text = "(kicad_sch\n  (version 1)\n  (symbol (at x 2 0)))"
+    assert sexpr.locate(text, (2, 1, 1))[:2] == (3, 15)
