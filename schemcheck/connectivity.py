@@ -1,0 +1,401 @@
+"""Wires, junctions, labels, sheets and power symbols -> nets (pure; no file access).
+
+Rules (KiCad's, as its file-format documentation and editor behave):
+
+* items connect where their connection points coincide: pin ends, wire ends, junctions,
+  labels, sheet pins, no-connect flags;
+* a wire end, a junction or a label lying on the interior of a wire connects to that
+  wire; wires that merely cross do not;
+* local labels join within one sheet instance; global labels and global power symbols
+  (by their value) across the design; a hierarchical label joins the pin of the same
+  name on the sheet symbol that placed its sheet;
+* a hidden power-input pin of an ordinary symbol joins the design-wide net named by the
+  pin's name;
+* only pins of the placed unit (unit 0 pins belong to every unit) and body style count.
+
+Buses are not followed: members of a bus are joined by their labels, as KiCad does;
+the bus lines themselves carry no net.
+
+Work is done once per sheet *file* (a local union-find over points) and then once per
+sheet *instance* (a global union-find over the local groups), so a sheet placed five
+times is scanned once.
+"""
+
+from __future__ import annotations
+
+import re
+from bisect import bisect_left, bisect_right
+from dataclasses import dataclass, field
+
+from .io.design import Design
+from .io.kicad_sch import LibSymbol, PlacedSymbol, Point, SheetFile, pin_point
+from .model import Net, Netlist, Node, Part, Pin, natural_key as _natural
+
+_PRIORITY = {"power": 6, "global_label": 5, "label": 4, "hierarchical_label": 3}
+#: Bus vectors ``D[0..7]`` and bus groups ``{A B}`` / ``NAME{A B}``; not ``~{X}`` (overbar),
+#: ``_{X}`` or ``^{X}`` (sub/superscript markup), which are ordinary net names.
+_BUS_NAME = re.compile(r"\[\d+\.\.\d+\]|(?:^|[^~_^])\{")
+
+
+# ---------------------------------------------------------------------------
+# Per sheet file: points -> local groups
+
+
+class _UnionFind:
+    __slots__ = ("parent",)
+
+    def __init__(self, size: int = 0) -> None:
+        self.parent = list(range(size))
+
+    def add(self) -> int:
+        self.parent.append(len(self.parent))
+        return len(self.parent) - 1
+
+    def find(self, item: int) -> int:
+        parent = self.parent
+        root = item
+        while parent[root] != root:
+            root = parent[root]
+        while parent[item] != root:
+            parent[item], item = root, parent[item]
+        return root
+
+    def union(self, a: int, b: int) -> None:
+        ra, rb = self.find(a), self.find(b)
+        if ra != rb:
+            if ra < rb:
+                self.parent[rb] = ra
+            else:
+                self.parent[ra] = rb
+
+
+@dataclass(slots=True)
+class _PlacedPin:
+    symbol: PlacedSymbol
+    lib: LibSymbol
+    pin: Pin
+    group: int
+
+
+@dataclass(slots=True)
+class _LocalGraph:
+    """Connectivity of one sheet file, independent of where it is placed."""
+
+    size: int
+    group: list[int]  # point id -> local group id (canonical root)
+    pins: list[_PlacedPin] = field(default_factory=list)
+    labels: list[tuple[str, str, int]] = field(default_factory=list)  # kind, name, group
+    sheet_pins: dict[tuple[int, str], int] = field(default_factory=dict)  # (sheet idx, name)
+    unknown_symbols: list[PlacedSymbol] = field(default_factory=list)
+    pins_of: dict[int, tuple[Pin, ...]] = field(default_factory=dict)  # id(symbol) -> pins
+
+
+def _points_on_segment(a: Point, b: Point, by_x: dict[int, list[int]],
+                       by_y: dict[int, list[int]], xs_sorted: list[int]) -> list[Point]:
+    """Candidate points strictly inside segment a-b (exact integer geometry)."""
+    (x1, y1), (x2, y2) = a, b
+    if y1 == y2:
+        xs = by_y.get(y1)
+        if not xs:
+            return []
+        lo, hi = (x1, x2) if x1 < x2 else (x2, x1)
+        return [(x, y1) for x in xs[bisect_right(xs, lo):bisect_left(xs, hi)]]
+    if x1 == x2:
+        ys = by_x.get(x1)
+        if not ys:
+            return []
+        lo, hi = (y1, y2) if y1 < y2 else (y2, y1)
+        return [(x1, y) for y in ys[bisect_right(ys, lo):bisect_left(ys, hi)]]
+    found = []
+    xlo, xhi = (x1, x2) if x1 < x2 else (x2, x1)
+    ylo, yhi = (y1, y2) if y1 < y2 else (y2, y1)
+    for x in xs_sorted[bisect_right(xs_sorted, xlo):bisect_left(xs_sorted, xhi)]:
+        ys = by_x[x]
+        for y in ys[bisect_left(ys, ylo):bisect_right(ys, yhi)]:
+            if (x2 - x1) * (y - y1) == (y2 - y1) * (x - x1):
+                found.append((x, y))
+    return found
+
+
+def local_graph(sheet: SheetFile) -> _LocalGraph:
+    """Group the connection points of one sheet file."""
+    ids: dict[Point, int] = {}
+    uf = _UnionFind()
+
+    def point_id(point: Point) -> int:
+        found = ids.get(point)
+        if found is None:
+            found = ids[point] = uf.add()
+        return found
+
+    for a, b in sheet.wires:
+        uf.union(point_id(a), point_id(b))
+    # points that attach to a wire's interior: wire ends, junctions, labels
+    attach: set[Point] = {p for wire in sheet.wires for p in wire}
+    attach.update(sheet.junctions)
+    attach.update(label.point for label in sheet.labels)
+    by_x: dict[int, list[int]] = {}
+    by_y: dict[int, list[int]] = {}
+    for x, y in attach:
+        by_x.setdefault(x, []).append(y)
+        by_y.setdefault(y, []).append(x)
+    for values in by_x.values():
+        values.sort()
+    for values in by_y.values():
+        values.sort()
+    xs_sorted = sorted(by_x)
+    for a, b in sheet.wires:
+        inner = _points_on_segment(a, b, by_x, by_y, xs_sorted)
+        if inner:
+            wire_id = ids[a]
+            for point in inner:
+                uf.union(wire_id, point_id(point))
+
+    graph_pins: list[tuple[PlacedSymbol, LibSymbol, Pin, int]] = []
+    unknown: list[PlacedSymbol] = []
+    for symbol in sheet.symbols:
+        lib = sheet.lib_symbols.get(symbol.lib_name or symbol.lib_id)
+        if lib is None:
+            lib = sheet.lib_symbols.get(symbol.lib_id)
+        if lib is None:
+            unknown.append(symbol)
+            continue
+        for lib_pin in lib.pins:
+            if lib_pin.unit not in (0, symbol.unit) or lib_pin.body_style not in (0, symbol.body_style):
+                continue
+            pin = Pin(lib_pin.number, lib_pin.name, lib_pin.electrical_type,
+                      lib_pin.unit, lib_pin.hidden)
+            graph_pins.append((symbol, lib, pin, point_id(pin_point(symbol, lib_pin))))
+    label_ids = [(label.kind, label.name, point_id(label.point)) for label in sheet.labels]
+    sheet_pin_ids = {(s.index, p.name): point_id(p.point) for s in sheet.sheets for p in s.pins}
+    for point in sheet.no_connects:
+        point_id(point)
+
+    group = [uf.find(i) for i in range(len(uf.parent))]
+    graph = _LocalGraph(size=len(group), group=group, unknown_symbols=unknown)
+    graph.pins = [_PlacedPin(s, lib, pin, group[i]) for s, lib, pin, i in graph_pins]
+    pins_of: dict[int, list[Pin]] = {}
+    for symbol, _, pin, _ in graph_pins:
+        pins_of.setdefault(id(symbol), []).append(pin)
+    graph.pins_of = {key: tuple(value) for key, value in pins_of.items()}
+    graph.labels = [(kind, name, group[i]) for kind, name, i in label_ids
+                    if not _BUS_NAME.search(name)]
+    graph.sheet_pins = {key: group[i] for key, i in sheet_pin_ids.items()}
+    return graph
+
+
+# ---------------------------------------------------------------------------
+# Per sheet instance: the hierarchy
+
+
+@dataclass(slots=True)
+class SheetInstance:
+    file: str  # key into Design.sheets
+    names: str  # "/" or "/Channel A/"
+    uuids: tuple[str, ...]  # sheet-symbol uuids from the root down (root excluded)
+    parent: int | None  # index of the parent instance
+    sheet_index: int | None  # index of the sheet symbol in the parent's file
+    dnp: bool = False
+    exclude_from_sim: bool = False
+    offset: int = 0  # first global id of this instance's local groups
+
+
+def instances(design: Design) -> list[SheetInstance]:
+    """Every sheet instance, root first, depth first, in file order."""
+    out = [SheetInstance(design.root, "/", (), None, None)]
+    stack = [0]
+    seen_depth = 0
+    while stack:
+        index = stack.pop()
+        inst = out[index]
+        sheet = design.sheets[inst.file]
+        children = []
+        for symbol in sheet.sheets:
+            target = design.children.get((inst.file, symbol.index))
+            if target is None or target not in design.sheets:
+                continue
+            if len(inst.uuids) >= 64:  # deeper than any real design: a loop
+                seen_depth += 1
+                continue
+            children.append(SheetInstance(
+                target, f"{inst.names}{symbol.name}/", inst.uuids + (symbol.uuid,), index,
+                symbol.index, inst.dnp or symbol.dnp,
+                inst.exclude_from_sim or symbol.exclude_from_sim))
+        for child in reversed(children):
+            out.append(child)
+            stack.append(len(out) - 1)
+    return out
+
+
+def _reference(symbol: PlacedSymbol, inst: SheetInstance, design: Design,
+               root: SheetFile) -> tuple[str, int, str | None, bool]:
+    """(reference, unit, value override, matched) of ``symbol`` in sheet instance ``inst``."""
+    path7 = "/" + root.uuid + "".join("/" + u for u in inst.uuids)
+    chosen = None
+    for entry in symbol.instances:
+        if entry.path == path7:
+            if chosen is None or entry.project == design.project_name:
+                chosen = entry
+    if chosen is not None:
+        return chosen.reference, chosen.unit or symbol.unit, None, True
+    if root.symbol_instances:
+        path6 = "".join("/" + u for u in inst.uuids) + "/" + symbol.uuid
+        found = root.symbol_instances.get(path6)
+        if found is not None:
+            reference, unit, value, _ = found
+            return reference, unit or symbol.unit, value or None, True
+    if len(symbol.instances) == 1 and inst.parent is None:
+        return symbol.instances[0].reference, symbol.instances[0].unit or symbol.unit, None, True
+    return symbol.properties.get("Reference", "?"), symbol.unit, None, False
+
+
+def build_netlist(design: Design) -> Netlist:
+    """Connect every sheet instance of ``design`` into one :class:`Netlist`."""
+    root = design.sheets[design.root]
+    graphs = {key: local_graph(sheet) for key, sheet in design.sheets.items()}
+    insts = instances(design)
+    total = 0
+    for inst in insts:
+        inst.offset = total
+        total += graphs[inst.file].size
+    uf = _UnionFind(total)
+    names: dict[int, list[tuple[int, int, str]]] = {}  # global id -> (priority, depth, name)
+    by_global_name: dict[str, int] = {}
+    warnings: list[str] = []
+    parts: list[Part] = []
+    node_sets: dict[int, set[Node]] = {}
+    pending_nodes: list[tuple[int, Node]] = []
+
+    def name_candidate(gid: int, kind: str, depth: int, name: str) -> None:
+        names.setdefault(gid, []).append((-_PRIORITY[kind], depth, name))
+
+    def join_global(gid: int, name: str) -> None:
+        other = by_global_name.setdefault(name, gid)
+        if other != gid:
+            uf.union(other, gid)
+
+    for number, inst in enumerate(insts):
+        sheet = design.sheets[inst.file]
+        graph = graphs[inst.file]
+        off = inst.offset
+        depth = inst.names.count("/") - 1
+        local_by_name: dict[str, int] = {}
+        for kind, name, group in graph.labels:
+            gid = off + group
+            if kind == "global_label":
+                join_global(gid, name)
+                name_candidate(gid, kind, depth, name)
+            elif kind == "label" or (kind == "hierarchical_label" and inst.parent is None):
+                other = local_by_name.setdefault(name, gid)
+                if other != gid:
+                    uf.union(other, gid)
+                name_candidate(gid, "label", depth, inst.names + name)
+            else:
+                name_candidate(gid, kind, depth, inst.names + name)
+        if inst.parent is not None:
+            parent = insts[inst.parent]
+            parent_graph = graphs[parent.file]
+            hier = {}
+            for kind, name, group in graph.labels:
+                if kind == "hierarchical_label":
+                    hier.setdefault(name, []).append(off + group)
+            for (sheet_index, pin_name), group in parent_graph.sheet_pins.items():
+                if sheet_index != inst.sheet_index:
+                    continue
+                targets = hier.get(pin_name)
+                if not targets:
+                    warnings.append(f"sheet pin {pin_name!r} of sheet {inst.names!r} has no "
+                                    "hierarchical label of that name inside the sheet")
+                    continue
+                for target in targets:
+                    uf.union(parent.offset + group, target)
+        for symbol in graph.unknown_symbols:
+            warnings.append(f"{sheet.path}: symbol {symbol.properties.get('Reference', '?')} "
+                            f"uses library symbol {symbol.lib_name or symbol.lib_id!r}, which is "
+                            "not in the file's lib_symbols: its pins are unknown")
+        done_parts: dict[int, Part] = {}
+        for placed in graph.pins:
+            symbol, lib = placed.symbol, placed.lib
+            gid = off + placed.group
+            if lib.is_power:
+                # KiCad: only a power-input pin of a power symbol is a power net driver
+                # (PWR_FLAG's power-output pin names nothing).
+                if placed.pin.electrical_type != "power_in":
+                    continue
+                value = symbol.properties.get("Value") or placed.pin.name
+                if lib.power_scope == "local":
+                    other = local_by_name.setdefault("\0power:" + value, gid)
+                    if other != gid:
+                        uf.union(other, gid)
+                    name_candidate(gid, "power", depth, inst.names + value)
+                else:
+                    join_global(gid, value)
+                    name_candidate(gid, "power", depth, value)
+                continue
+            if placed.pin.hidden and placed.pin.electrical_type == "power_in" and placed.pin.name:
+                join_global(gid, placed.pin.name)
+                name_candidate(gid, "power", depth, placed.pin.name)
+            key = id(symbol)
+            part = done_parts.get(key)
+            if part is None:
+                part = done_parts[key] = _make_part(symbol, lib, inst, design, root, graph, warnings)
+                if not part.ref.startswith("#"):
+                    parts.append(part)
+            if part.ref.startswith("#") or part.dnp:
+                continue
+            pending_nodes.append((gid, Node(part.ref, placed.pin.number)))
+        for symbol in graph.unknown_symbols:
+            ref, unit, value, _ = _reference(symbol, inst, design, root)
+            if not ref.startswith("#"):
+                parts.append(Part(ref=ref, unit=unit, value=value or symbol.properties.get("Value", ""),
+                                  lib_id=symbol.lib_id, sheet=inst.names,
+                                  fields=dict(symbol.properties), dnp=symbol.dnp or inst.dnp,
+                                  source_file=sheet.path, uuid=symbol.uuid))
+
+    for gid, node in pending_nodes:
+        node_sets.setdefault(uf.find(gid), set()).add(node)
+    merged_names: dict[int, list[tuple[int, int, str]]] = {}
+    for gid, cands in names.items():
+        merged_names.setdefault(uf.find(gid), []).extend(cands)
+
+    _check_duplicates(parts, warnings)
+    nets = []
+    for root_id, nodes in node_sets.items():
+        ordered = tuple(sorted(nodes, key=lambda n: (_natural(n.ref), _natural(n.pin))))
+        cands = merged_names.get(root_id)
+        if cands:
+            best = min(cands)
+            labels = tuple(sorted({c[2] for c in cands}))
+            nets.append(Net(best[2], ordered, True, -best[0] >= _PRIORITY["global_label"], labels))
+        else:
+            first = ordered[0]
+            nets.append(Net(f"unnamed-{first.ref}-{first.pin}", ordered, False, False, ()))
+    nets.sort(key=lambda n: _natural(n.name))
+    parts.sort(key=lambda p: (_natural(p.ref), p.unit, p.sheet))
+    files = tuple(sheet.path for sheet in design.sheets.values())
+    return Netlist(nets=tuple(nets), parts=tuple(parts), source=root.path, format="kicad_sch",
+                   version=str(root.version or ""), files=files, warnings=tuple(warnings))
+
+
+def _make_part(symbol: PlacedSymbol, lib: LibSymbol, inst: SheetInstance, design: Design,
+               root: SheetFile, graph: _LocalGraph, warnings: list[str]) -> Part:
+    ref, unit, value, _ = _reference(symbol, inst, design, root)
+    pins = graph.pins_of.get(id(symbol), ())
+    return Part(
+        ref=ref, unit=unit, value=value or symbol.properties.get("Value", ""),
+        lib_id=symbol.lib_id, sheet=inst.names, fields=dict(symbol.properties), pins=pins,
+        dnp=symbol.dnp or inst.dnp, exclude_from_sim=symbol.exclude_from_sim or inst.exclude_from_sim,
+        in_bom=symbol.in_bom, body_style=symbol.body_style, unit_count=lib.unit_count,
+        description=lib.description, keywords=lib.keywords, is_power=lib.is_power,
+        source_file=design.sheets[inst.file].path, uuid=symbol.uuid)
+
+
+def _check_duplicates(parts: list[Part], warnings: list[str]) -> None:
+    seen: dict[tuple[str, int], Part] = {}
+    for part in parts:
+        key = (part.ref, part.unit)
+        if key in seen:
+            warnings.append(f"reference {part.ref} unit {part.unit} is used twice "
+                            f"(sheets {seen[key].sheet!r} and {part.sheet!r}): annotate the design")
+        else:
+            seen[key] = part

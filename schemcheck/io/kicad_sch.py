@@ -1,0 +1,474 @@
+"""Read one ``.kicad_sch`` sheet file into plain geometry (no connectivity yet).
+
+Works straight on the tree from :mod:`schemcheck.io.sexpr` rather than on kiutils
+objects: building kiutils' objects costs more than the whole connectivity pass
+(measured in ``bench/bench_netlist.py``), and kiutils 1.4.8 drops things this reader
+needs: KiCad 9's ``(hide yes)`` on pins, ``exclude_from_sim``, body style (``convert`` /
+``body_style``), sheet-level ``dnp``, stacked pins with one number, ``lib_name``.
+
+Coordinates are kept as integers in units of 0.1 µm (KiCad writes at most four decimals
+of a millimetre), so coincidence tests are exact.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+from ..errors import ParseError
+from . import sexpr
+
+Point = tuple[int, int]
+SCALE = 10_000  # coordinate units per millimetre
+
+
+@dataclass(slots=True)
+class LibPin:
+    number: str
+    name: str
+    electrical_type: str
+    x: float  # library coordinates, millimetres, Y up
+    y: float
+    unit: int
+    body_style: int
+    hidden: bool
+
+
+@dataclass(slots=True)
+class LibSymbol:
+    name: str
+    pins: list[LibPin]
+    is_power: bool = False
+    power_scope: str = "global"
+    description: str = ""
+    keywords: str = ""
+    unit_count: int = 1
+
+
+@dataclass(slots=True)
+class Instance:
+    project: str
+    path: str
+    reference: str
+    unit: int | None
+
+
+@dataclass(slots=True)
+class PlacedSymbol:
+    lib_id: str
+    lib_name: str
+    x: float
+    y: float
+    angle: float
+    mirror: str
+    unit: int
+    body_style: int
+    dnp: bool
+    exclude_from_sim: bool
+    in_bom: bool
+    uuid: str
+    properties: dict[str, str]
+    instances: list[Instance]
+    index: int  # position in the file's top-level list, to locate errors
+
+
+@dataclass(slots=True)
+class SheetPin:
+    name: str
+    point: Point
+
+
+@dataclass(slots=True)
+class SheetSymbol:
+    uuid: str
+    name: str
+    file: str
+    pins: list[SheetPin]
+    dnp: bool
+    exclude_from_sim: bool
+    index: int
+
+
+@dataclass(slots=True)
+class Label:
+    kind: str  # "label", "global_label", "hierarchical_label"
+    name: str
+    point: Point
+
+
+@dataclass(slots=True)
+class SheetFile:
+    """Everything connectivity needs from one sheet file."""
+
+    path: str
+    version: int | None
+    generator: str
+    generator_version: str
+    uuid: str
+    lib_symbols: dict[str, LibSymbol]
+    symbols: list[PlacedSymbol]
+    wires: list[tuple[Point, Point]]
+    junctions: list[Point]
+    no_connects: list[Point]
+    labels: list[Label]
+    sheets: list[SheetSymbol]
+    #: KiCad 6 root files only: instance path -> (reference, unit, value, footprint)
+    symbol_instances: dict[str, tuple[str, int | None, str, str]] = field(default_factory=dict)
+    text: str = ""
+
+
+class _Bad(Exception):
+    """Internal: a bad value at a tree path; turned into a located ParseError."""
+
+    def __init__(self, path: tuple[int, ...], message: str) -> None:
+        super().__init__(message)
+        self.path = path
+        self.message = message
+
+
+def _number(node: list[Any], i: int, path: tuple[int, ...], what: str) -> float:
+    if len(node) <= i:
+        raise _Bad(path, f"expected a number for {what} in '({node[0]} ...)', found nothing")
+    value = node[i]
+    if value.__class__ is int or value.__class__ is float:
+        return value
+    raise _Bad(path + (i,), f"expected a number for {what} in '({node[0]} ...)', "
+                            f"found {value!r}")
+
+
+def _text(node: list[Any], i: int, path: tuple[int, ...], what: str) -> str:
+    if len(node) <= i or isinstance(node[i], list):
+        raise _Bad(path, f"expected a text value for {what} in '({node[0]} ...)'")
+    value = node[i]
+    return value if value.__class__ is str else _format_number(value)
+
+
+def _format_number(value: int | float) -> str:
+    return str(value)
+
+
+def _yes(node: list[Any]) -> bool:
+    """``(dnp yes)`` / ``(dnp)`` / ``(dnp no)``."""
+    return len(node) < 2 or node[1] == "yes"
+
+
+def _key(x: float, y: float) -> Point:
+    return (round(x * SCALE), round(y * SCALE))
+
+
+def _at(node: list[Any], path: tuple[int, ...]) -> tuple[float, float, float]:
+    x = _number(node, 1, path, "X")
+    y = _number(node, 2, path, "Y")
+    angle = node[3] if len(node) > 3 else 0
+    if not (angle.__class__ is int or angle.__class__ is float):
+        raise _Bad(path + (3,), f"expected a number for the angle in '(at ...)', found {angle!r}")
+    return x, y, angle
+
+
+def read_sheet(text: str, file: str) -> SheetFile:
+    """Parse ``text`` (the content of ``file``) into a :class:`SheetFile`.
+
+    Raises :class:`ParseError` with file, line and column for malformed input.
+    """
+    tree = sexpr.parse(text, file=file)
+    if not tree or tree[0] != "kicad_sch":
+        head = tree[0] if tree and not isinstance(tree[0], list) else "(...)"
+        raise ParseError(f"expected a KiCad schematic '(kicad_sch ...)', found '({head} ...)'",
+                         file=file, line=1, column=1)
+    try:
+        sheet = _read_tree(tree, file)
+    except _Bad as bad:
+        line, column, snippet = sexpr.locate(text, bad.path)
+        raise ParseError(bad.message, file=file, line=line, column=column,
+                         snippet=snippet) from None
+    sheet.text = text
+    return sheet
+
+
+def _read_tree(tree: list[Any], file: str) -> SheetFile:
+    sheet = SheetFile(path=file, version=None, generator="", generator_version="", uuid="",
+                      lib_symbols={}, symbols=[], wires=[], junctions=[], no_connects=[],
+                      labels=[], sheets=[])
+    wires = sheet.wires
+    for index, item in enumerate(tree):
+        if item.__class__ is not list or not item:
+            continue
+        head = item[0]
+        path = (index,)
+        if head == "symbol":
+            sheet.symbols.append(_placed_symbol(item, path))
+        elif head == "wire":
+            wires.append(_wire(item, path))
+        elif head == "junction" or head == "no_connect":
+            point = None
+            for j, sub in enumerate(item):
+                if sub.__class__ is list and sub and sub[0] == "at":
+                    x, y, _ = _at(sub, path + (j,))
+                    point = _key(x, y)
+            if point is None:
+                raise _Bad(path, f"expected '(at X Y)' in '({head} ...)'")
+            (sheet.junctions if head == "junction" else sheet.no_connects).append(point)
+        elif head in ("label", "global_label", "hierarchical_label"):
+            sheet.labels.append(_label(item, path))
+        elif head == "sheet":
+            sheet.sheets.append(_sheet_symbol(item, path))
+        elif head == "lib_symbols":
+            for j, sub in enumerate(item[1:], start=1):
+                if sub.__class__ is list and sub and sub[0] == "symbol":
+                    lib = _lib_symbol(sub, path + (j,))
+                    sheet.lib_symbols[lib.name] = lib
+        elif head == "version":
+            sheet.version = item[1] if len(item) > 1 and item[1].__class__ is int else None
+            if sheet.version is None:
+                raise _Bad(path, "expected the format date '(version YYYYMMDD)'")
+        elif head == "generator":
+            sheet.generator = _text(item, 1, path, "the generator")
+        elif head == "generator_version":
+            sheet.generator_version = _text(item, 1, path, "the generator version")
+        elif head == "uuid":
+            sheet.uuid = _text(item, 1, path, "the sheet uuid")
+        elif head == "symbol_instances":
+            _symbol_instances(item, path, sheet.symbol_instances)
+    return sheet
+
+
+def _wire(item: list[Any], path: tuple[int, ...]) -> tuple[Point, Point]:
+    for j, sub in enumerate(item):
+        if sub.__class__ is list and sub and sub[0] == "pts":
+            points = []
+            for k, xy in enumerate(sub[1:], start=1):
+                if xy.__class__ is list and xy and xy[0] == "xy":
+                    where = path + (j, k)
+                    points.append(_key(_number(xy, 1, where, "X"), _number(xy, 2, where, "Y")))
+            if len(points) != 2:
+                raise _Bad(path + (j,), "expected two points '(xy X Y)' in a wire's '(pts ...)'")
+            return points[0], points[1]
+    raise _Bad(path, "expected '(pts (xy X Y) (xy X Y))' in '(wire ...)'")
+
+
+def _label(item: list[Any], path: tuple[int, ...]) -> Label:
+    name = _text(item, 1, path, "the label name")
+    for j, sub in enumerate(item):
+        if sub.__class__ is list and sub and sub[0] == "at":
+            x, y, _ = _at(sub, path + (j,))
+            return Label(item[0], name, _key(x, y))
+    raise _Bad(path, f"expected '(at X Y A)' in '({item[0]} ...)'")
+
+
+def _properties(item: list[Any], path: tuple[int, ...]) -> dict[str, str]:
+    props: dict[str, str] = {}
+    for j, sub in enumerate(item):
+        if sub.__class__ is list and sub and sub[0] == "property":
+            key = _text(sub, 1, path + (j,), "the property name")
+            props[key] = _text(sub, 2, path + (j,), f"the value of property {key!r}")
+    return props
+
+
+def _unit_of(name: str) -> tuple[int, int]:
+    """Unit and body style from a library sub-symbol name ``NAME_U_B``."""
+    parts = name.rsplit("_", 2)
+    if len(parts) == 3 and parts[1].isdigit() and parts[2].isdigit():
+        return int(parts[1]), int(parts[2])
+    return 0, 0
+
+
+def _lib_symbol(item: list[Any], path: tuple[int, ...]) -> LibSymbol:
+    name = _text(item, 1, path, "the library symbol name")
+    lib = LibSymbol(name=name, pins=[])
+    for j, sub in enumerate(item[2:], start=2):
+        if sub.__class__ is not list or not sub:
+            continue
+        head = sub[0]
+        if head == "symbol":
+            unit, body = _unit_of(_text(sub, 1, path + (j,), "the unit name"))
+            lib.unit_count = max(lib.unit_count, unit)
+            for k, pin in enumerate(sub[2:], start=2):
+                if pin.__class__ is list and pin and pin[0] == "pin":
+                    lib.pins.append(_lib_pin(pin, path + (j, k), unit, body))
+        elif head == "pin":
+            lib.pins.append(_lib_pin(sub, path + (j,), 0, 0))
+        elif head == "property":
+            key = sub[1] if len(sub) > 1 else ""
+            if key in ("Description", "ki_description"):
+                lib.description = _text(sub, 2, path + (j,), "the description")
+            elif key == "ki_keywords":
+                lib.keywords = _text(sub, 2, path + (j,), "the keywords")
+        elif head == "power":
+            lib.is_power = True
+            if len(sub) > 1 and sub[1] == "local":
+                lib.power_scope = "local"
+    return lib
+
+
+def _lib_pin(pin: list[Any], path: tuple[int, ...], unit: int, body: int) -> LibPin:
+    etype = _text(pin, 1, path, "the pin's electrical type")
+    x = y = None
+    name = number = ""
+    hidden = False
+    for j, sub in enumerate(pin[2:], start=2):
+        if sub.__class__ is list:
+            if not sub:
+                continue
+            head = sub[0]
+            if head == "at":
+                x, y, _ = _at(sub, path + (j,))
+            elif head == "name":
+                name = _text(sub, 1, path + (j,), "the pin name")
+            elif head == "number":
+                number = _text(sub, 1, path + (j,), "the pin number")
+            elif head == "hide":  # KiCad 9: (hide yes)
+                hidden = _yes(sub)
+        elif sub == "hide":  # KiCad 6 to 8: bare flag
+            hidden = True
+    if x is None:
+        raise _Bad(path, "expected '(at X Y A)' in '(pin ...)'")
+    return LibPin(number, name, etype, x, y, unit, body, hidden)
+
+
+def _placed_symbol(item: list[Any], path: tuple[int, ...]) -> PlacedSymbol:
+    lib_id = lib_name = mirror = uuid = ""
+    x = y = angle = None
+    unit = body = 1
+    dnp = exclude = False
+    in_bom = True
+    props: dict[str, str] = {}
+    instances: list[Instance] = []
+    for j, sub in enumerate(item):
+        if sub.__class__ is not list or not sub:
+            continue
+        head = sub[0]
+        where = path + (j,)
+        if head == "property":
+            key = _text(sub, 1, where, "the property name")
+            props[key] = _text(sub, 2, where, f"the value of property {key!r}")
+        elif head == "at":
+            x, y, angle = _at(sub, where)
+        elif head == "lib_id":
+            lib_id = _text(sub, 1, where, "the library id")
+        elif head == "lib_name":
+            lib_name = _text(sub, 1, where, "the library name")
+        elif head == "unit":
+            unit = int(_number(sub, 1, where, "the unit"))
+        elif head == "convert" or head == "body_style":
+            body = int(_number(sub, 1, where, "the body style"))
+        elif head == "mirror":
+            mirror = _text(sub, 1, where, "the mirror axis")
+        elif head == "dnp":
+            dnp = _yes(sub)
+        elif head == "exclude_from_sim":
+            exclude = _yes(sub)
+        elif head == "in_bom":
+            in_bom = _yes(sub)
+        elif head == "uuid":
+            uuid = _text(sub, 1, where, "the uuid")
+        elif head == "instances":
+            _instances(sub, where, instances)
+    if x is None:
+        raise _Bad(path, "expected '(at X Y A)' in a placed '(symbol ...)'")
+    if not lib_id:
+        raise _Bad(path, "expected '(lib_id \"Library:Name\")' in a placed '(symbol ...)'")
+    return PlacedSymbol(lib_id, lib_name, x, y, angle, mirror, unit, body, dnp, exclude, in_bom,
+                        uuid, props, instances, path[0])
+
+
+def _instances(node: list[Any], path: tuple[int, ...], out: list[Instance]) -> None:
+    for j, project in enumerate(node[1:], start=1):
+        if project.__class__ is not list or not project or project[0] != "project":
+            continue
+        name = project[1] if len(project) > 1 and project[1].__class__ is str else ""
+        for k, entry in enumerate(project[2:], start=2):
+            if entry.__class__ is not list or not entry or entry[0] != "path":
+                continue
+            where = path + (j, k)
+            inst_path = _text(entry, 1, where, "the instance path")
+            reference, unit = "", None
+            for m, sub in enumerate(entry[2:], start=2):
+                if sub.__class__ is list and sub:
+                    if sub[0] == "reference":
+                        reference = _text(sub, 1, where + (m,), "the reference")
+                    elif sub[0] == "unit":
+                        unit = int(_number(sub, 1, where + (m,), "the unit"))
+            out.append(Instance(name, inst_path, reference, unit))
+
+
+def _symbol_instances(node: list[Any], path: tuple[int, ...],
+                      out: dict[str, tuple[str, int | None, str, str]]) -> None:
+    for j, entry in enumerate(node[1:], start=1):
+        if entry.__class__ is not list or not entry or entry[0] != "path":
+            continue
+        where = path + (j,)
+        inst_path = _text(entry, 1, where, "the instance path")
+        fields = {"reference": "", "unit": None, "value": "", "footprint": ""}
+        for m, sub in enumerate(entry[2:], start=2):
+            if sub.__class__ is list and sub and sub[0] in fields:
+                if sub[0] == "unit":
+                    fields["unit"] = int(_number(sub, 1, where + (m,), "the unit"))
+                else:
+                    fields[sub[0]] = _text(sub, 1, where + (m,), sub[0])
+        out[inst_path] = (fields["reference"], fields["unit"], fields["value"], fields["footprint"])
+
+
+def _sheet_symbol(item: list[Any], path: tuple[int, ...]) -> SheetSymbol:
+    uuid = name = file = ""
+    pins: list[SheetPin] = []
+    dnp = exclude = False
+    for j, sub in enumerate(item):
+        if sub.__class__ is not list or not sub:
+            continue
+        head = sub[0]
+        where = path + (j,)
+        if head == "property":
+            key = _text(sub, 1, where, "the property name")
+            if key in ("Sheetname", "Sheet name"):
+                name = _text(sub, 2, where, "the sheet name")
+            elif key in ("Sheetfile", "Sheet file"):
+                file = _text(sub, 2, where, "the sheet file")
+        elif head == "uuid":
+            uuid = _text(sub, 1, where, "the uuid")
+        elif head == "pin":
+            pin_name = _text(sub, 1, where, "the sheet pin name")
+            point = None
+            for k, at in enumerate(sub):
+                if at.__class__ is list and at and at[0] == "at":
+                    x, y, _ = _at(at, where + (k,))
+                    point = _key(x, y)
+            if point is None:
+                raise _Bad(where, "expected '(at X Y A)' in a sheet '(pin ...)'")
+            pins.append(SheetPin(pin_name, point))
+        elif head == "dnp":
+            dnp = _yes(sub)
+        elif head == "exclude_from_sim":
+            exclude = _yes(sub)
+    if not file:
+        raise _Bad(path, "expected a 'Sheetfile' property naming the child sheet file "
+                         "in '(sheet ...)'")
+    return SheetSymbol(uuid, name or file, file, pins, dnp, exclude, path[0])
+
+
+def pin_point(symbol: PlacedSymbol, pin: LibPin) -> Point:
+    """Sheet position of ``pin`` on ``symbol``.
+
+    Library Y is flipped (library Y up, sheet Y down), the result rotated by the
+    symbol's angle counter-clockwise as seen on screen, then mirrored (``x``: vertical
+    flip, ``y``: horizontal flip), then moved to the symbol's position.
+    """
+    px, py = pin.x, -pin.y
+    angle = symbol.angle % 360
+    if angle == 0:
+        rx, ry = px, py
+    elif angle == 90:
+        rx, ry = py, -px
+    elif angle == 180:
+        rx, ry = -px, -py
+    elif angle == 270:
+        rx, ry = -py, px
+    else:
+        rad = math.radians(angle)
+        c, s = math.cos(rad), math.sin(rad)
+        rx, ry = px * c + py * s, -px * s + py * c
+    if symbol.mirror == "x":
+        ry = -ry
+    elif symbol.mirror == "y":
+        rx = -rx
+    return _key(symbol.x + rx, symbol.y + ry)

@@ -1,0 +1,1 @@
+"""Turning results into text: JSON, readable tables, checklists."""

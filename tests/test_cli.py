@@ -1,0 +1,117 @@
+"""The command line: whole outputs, exit statuses, and bad input as one clear line.
+
+Outside source for the malformed cases: each file is built by hand to break one rule
+of the S-expression schematic format (KiCad's file-format documentation); the expected
+message is ours, the expected line and column are counted by hand in the file.
+"""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import pytest
+from click.testing import CliRunner
+
+from schemcheck.cli import main
+
+from .conftest import FIXTURES
+
+GOOD = FIXTURES / "reader" / "rules.kicad_sch"
+
+
+def run(*args):
+    result = CliRunner().invoke(main, [str(a) for a in args])
+    return result.exit_code, result.stdout, result.stderr
+
+
+def test_netlist_json():
+    code, out, _ = run("netlist", GOOD)
+    data = json.loads(out)
+    assert code == 0
+    assert {"name": "/JOIN", "nodes": [{"ref": "R8", "pin": "1"}, {"ref": "R10", "pin": "1"}]} \
+        in data["nets"]
+
+
+def test_netlist_text():
+    code, out, _ = run("netlist", FIXTURES / "reader" / "netlists" / "small.net", "--format", "text")
+    assert code == 0
+    assert "  GND                    R1.2 U1.3\n" in out
+
+
+HEADER = '(kicad_sch\n\t(version 20250114)\n\t(generator "eeschema")\n'
+
+
+@pytest.mark.parametrize(
+    ("content", "expected"),
+    [
+        pytest.param(HEADER + "\t(wire (pts (xy 1 2) (xy 3 4))))\n)\n",
+                     "bad.kicad_sch:5:1: unbalanced ')': no '(' is open here", id="unbalanced"),
+        pytest.param(HEADER + "\t(wire (pts (xy 1 2) (xy 3",
+                     "bad.kicad_sch:4:27: expected ')' but the file ends here: it is truncated or "
+                     "its brackets are unbalanced ('(xy' opened at line 4, column 22 is never "
+                     "closed)", id="truncated"),
+        pytest.param(HEADER + "\t(junction (at abc 10))\n)\n",
+                     "bad.kicad_sch:4:16: expected a number for X in '(at ...)', found 'abc'",
+                     id="wrong-type"),
+        pytest.param("PNG\x00\x01 not a schematic",
+                     "bad.kicad_sch:1:1: expected a KiCad schematic '(kicad_sch ...)' or an "
+                     "exported netlist ('(export ...)' or XML '<export ...>'), found "
+                     "'PNG\\x00\\x01 not a schematic'", id="not-a-schematic"),
+        pytest.param("(kicad_pcb (version 20240108))",
+                     "bad.kicad_sch:1:1: expected a KiCad schematic '(kicad_sch ...)' or an "
+                     "exported netlist ('(export ...)' or XML '<export ...>'), found "
+                     "'(kicad_pcb (version 20240108))'", id="a-board-file"),
+        pytest.param(b"(kicad_sch\n  (label \"\xff\xfe\" (at 0 0 0)))",
+                     "bad.kicad_sch:2:11: expected UTF-8 text, found byte 0xff that is not valid "
+                     "UTF-8 (KiCad writes its files in UTF-8)", id="non-utf8"),
+        pytest.param("(kicad_sch" + " (a" * 5000 + ")" * 5001,
+                     "bad.kicad_sch:1:777: expected at most 256 nested lists, found deeper nesting",
+                     id="deep-nesting"),
+    ],
+)
+def test_bad_input_is_one_clear_line(tmp_path, monkeypatch, content, expected):
+    monkeypatch.chdir(tmp_path)
+    path = tmp_path / "bad.kicad_sch"
+    path.write_bytes(content if isinstance(content, bytes) else content.encode("utf-8"))
+    code, out, err = run("netlist", "bad.kicad_sch")
+    assert code == 2
+    assert out == ""
+    assert err.splitlines()[0] == f"Error: {expected}"
+    assert "Traceback" not in err
+
+
+def test_missing_child_sheet_reported_and_rest_read(tmp_path):
+    from .synth import Sheet
+
+    top = Sheet(project="miss")
+    r = top.place("Device:R", "R1", "1k", 50.8, 50.8)
+    top.label("A", r.pin("1"))
+    top.sheet("Lost", "lost.kicad_sch", 100, 50, [])
+    (tmp_path / "miss.kicad_sch").write_text(top.text(), encoding="utf-8")
+    code, out, err = run("netlist", tmp_path / "miss.kicad_sch")
+    assert code == 2
+    assert json.loads(out)["nets"][0] == {"name": "/A", "nodes": [{"ref": "R1", "pin": "1"}]}
+    assert "expected the child sheet file 'lost.kicad_sch' of sheet 'Lost', found no such file" in err
+
+
+def test_no_such_file(tmp_path):
+    code, _, err = run("netlist", tmp_path / "nope.kicad_sch")
+    assert code == 2
+    assert err.strip().endswith("nope.kicad_sch: expected a file here, found nothing (no such file)")
+
+
+def test_whole_process_no_traceback(tmp_path):
+    bad = tmp_path / "t.kicad_sch"
+    bad.write_text("(kicad_sch (version 1)", encoding="utf-8")
+    proc = subprocess.run([sys.executable, "-m", "schemcheck", "netlist", str(bad)],
+                          capture_output=True, text=True)
+    assert proc.returncode == 2 and "Traceback" not in proc.stderr
+    assert proc.stderr.count("\n") >= 1 and proc.stderr.startswith("Error: ")
+
+
+@pytest.mark.parametrize("command", sorted(main.commands))
+def test_every_command_help_has_example(command):
+    code, out, _ = run(command, "--help")
+    assert code == 0 and "Example:" in out and "schemcheck " in out
