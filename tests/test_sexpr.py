@@ -126,3 +126,17 @@ def test_kiutils_raises_bare_assertion_where_we_locate():
 def test_locate_finds_nested_node():
     text = "(kicad_sch\n  (version 1)\n  (symbol (at x 2 0)))"
     assert sexpr.locate(text, (2, 1, 1))[:2] == (3, 15)
+
+
+@pytest.mark.parametrize("path", CORPUS_SCH + [p for p in FIXTURE_FILES if p.suffix == ".kicad_sch"],
+                         ids=corpus_ids(CORPUS_SCH) + [p.name for p in FIXTURE_FILES
+                                                         if p.suffix == ".kicad_sch"])
+def test_dropping_cosmetic_lists_keeps_the_rest(path):
+    text = read_text(path)
+    assert sexpr.parse(text, drop_cosmetic=True) == sexpr.without_cosmetic(sexpr.parse(text))
+
+
+def test_cosmetic_look_alikes_inside_strings_are_kept():
+    text = '(kicad_sch (label "see (effects (font x)) here" (at 1 2 0) (effects (font))))'
+    assert sexpr.parse(text, drop_cosmetic=True) == [
+        "kicad_sch", ["label", "see (effects (font x)) here", ["at", 1, 2, 0]]]

@@ -76,17 +76,65 @@ def _bare(token: str) -> Any:
     return token
 
 
-def parse(text: str, *, compat: bool = False, file: str | None = None) -> list[Any]:
+#: Lists that only draw: text effects, strokes, fills, graphic shapes, images, notes,
+#: and placed-symbol pin uuids. No connectivity rule reads them; together they are
+#: about half of a typical file's tokens.
+COSMETIC_HEADS = ("effects", "stroke", "fill", "polyline", "rectangle", "circle", "arc",
+                  "bezier", "image", "text", "text_box")
+_STRING = r'"[^"\\]*+(?:\\.[^"\\]*+)*+"'
+
+
+def _nested(depth: int) -> str:
+    """Regex for a list body with up to ``depth`` levels of nested lists."""
+    inner = r'(?:[^()"]++|' + _STRING + ")*+"
+    for _ in range(depth):
+        inner = r'(?:[^()"]++|' + _STRING + r"|\(" + inner + r"\))*+"
+    return inner
+
+
+#: As alternatives of the token regex these can only start where a token starts, never
+#: inside a string. Deeper lists than four levels are left in (KiCad writes three).
+_COSMETIC = (r"\((?:" + "|".join(COSMETIC_HEADS) + r")(?=[\s)])" + _nested(3) + r"\)"
+             + r'|\(pin "[^"\\]*+"\s*\(uuid [^()]*\)\s*\)')
+_FAST_TOKEN_NO_COSMETIC = re.compile(_COSMETIC + "|" + _FAST_TOKEN.pattern)
+
+
+def parse(text: str, *, compat: bool = False, file: str | None = None,
+          drop_cosmetic: bool = False) -> list[Any]:
     """Parse the first S-expression in ``text`` into nested lists.
 
     ``compat=True`` reproduces kiutils' string handling exactly (only ``\\"`` is
-    unescaped). Raises :class:`ParseError` naming ``file``, line and column.
+    unescaped). ``drop_cosmetic=True`` leaves out the lists named in
+    :data:`COSMETIC_HEADS` and placed-symbol pin uuids (up to four levels deep); the
+    rest of the tree is unchanged. Raises :class:`ParseError` naming ``file``, line and
+    column.
     """
     with collector_paused():
-        tree = _parse_fast(text, compat)
+        tree = _parse_fast(text, compat,
+                           _FAST_TOKEN_NO_COSMETIC if drop_cosmetic else _FAST_TOKEN)
         if tree is None:
             tree = _parse_exact(text, compat, file)
+            if drop_cosmetic:
+                tree = without_cosmetic(tree)
         return tree
+
+
+def without_cosmetic(tree: list[Any]) -> list[Any]:
+    """A copy of ``tree`` without the lists :func:`parse` drops on request."""
+    out: list[Any] = []
+    stack = [(tree, out)]
+    while stack:
+        source, target = stack.pop()
+        for item in source:
+            if item.__class__ is list:
+                if item and (item[0] in COSMETIC_HEADS or _is_pin_uuid(item)):
+                    continue
+                copy: list[Any] = []
+                target.append(copy)
+                stack.append((item, copy))
+            else:
+                target.append(item)
+    return out
 
 
 @contextmanager
@@ -106,7 +154,7 @@ def collector_paused() -> Iterator[None]:
             gc.enable()
 
 
-def _parse_fast(text: str, compat: bool) -> list[Any] | None:
+def _parse_fast(text: str, compat: bool, token_re: re.Pattern[str]) -> list[Any] | None:
     """The tree, or None where the exact path must decide (odd or malformed input)."""
     if "^" in text or (compat and "\\\\" in text):
         return None
@@ -117,24 +165,28 @@ def _parse_fast(text: str, compat: bool) -> list[Any] | None:
     pop = stack.pop
     memo: dict[str, Any] = {}
     recall = memo.get
-    for token in _FAST_TOKEN.findall(text):
-        first = token[0]
-        if first == "(":
+    for token in token_re.findall(text):
+        if token == "(":
             push(out)
             out = []
             if len(stack) > MAX_DEPTH:
                 return None
-        elif first == ")":
+            continue
+        if token == ")":
             if not stack:
                 return None
             parent = pop()
             parent.append(out)
             out = parent
-        elif first == '"':
+            continue
+        first = token[0]
+        if first == '"':
             if len(token) == 1:
                 return None
             body = token[1:-1]
             out.append(unescape(body) if "\\" in body else body)
+        elif first == "(":
+            continue  # a whole cosmetic block, dropped on request
         else:
             value = recall(token)
             if value is None:
@@ -150,6 +202,11 @@ def _parse_fast(text: str, compat: bool) -> list[Any] | None:
     if stack or not out:
         return None
     return out[0]
+
+
+def _is_pin_uuid(item: list[Any]) -> bool:
+    return (len(item) == 3 and item[0] == "pin" and item[1].__class__ is str
+            and item[2].__class__ is list and len(item[2]) == 2 and item[2][0] == "uuid")
 
 
 def _parse_exact(text: str, compat: bool, file: str | None) -> list[Any]:
