@@ -88,5 +88,48 @@ def netlist(path: str, fmt: str) -> None:
         sys.exit(EXIT_BAD_INPUT)
 
 
+@main.command()
+@click.argument("path", type=click.Path(dir_okay=False, path_type=str))
+@_format_option(("json", "text"), "json")
+@click.option("--temp", "temp", metavar="MIN:MAX", default=None,
+              help="Operating temperature range in °C (default 0:70).")
+@click.option("--parts", "parts", type=click.Path(dir_okay=False, path_type=str), default=None,
+              help="Parts library (TOML) with op-amp parameters.")
+@click.option("--budget", "budget", metavar="VOLTS", default=None,
+              help="Default output error budget for stages without a DC_Budget field (e.g. 5mV).")
+@click.option("--samples", "samples", type=click.IntRange(0, 1_000_000), default=None,
+              help="Monte Carlo samples per network (default 10000; 0 turns it off).")
+@click.option("--seed", "seed", type=int, default=None, help="Monte Carlo seed (default 1).")
+@_reports_errors
+def audit(path: str, fmt: str, temp: str | None, parts: str | None, budget: str | None,
+          samples: int | None, seed: int | None) -> None:
+    """Audit the DC output error of every op-amp stage of a design.
+
+    Exit status: 0 no error finding, 1 error findings, 2 unreadable input.
+
+    \b
+    Example:
+      schemcheck audit frontend.kicad_sch --temp -40:85 --parts opamps.toml --format text
+    """
+    from .runner import audit_files, options_to_settings
+
+    settings = options_to_settings(temp=temp, parts=parts, budget=budget, samples=samples,
+                                   seed=seed)
+    report = audit_files([path], settings)
+    if fmt == "json":
+        _emit(_json(report))
+    else:
+        from .report.audit_text import audit_text
+
+        _emit(audit_text(report))
+    errors = [e for d in report["designs"] for e in d["errors"]]
+    for error in errors:
+        click.echo(f"Error: {error}", err=True)
+    if errors:
+        sys.exit(EXIT_BAD_INPUT)
+    if any(f["severity"] == "error" for d in report["designs"] for f in d["findings"]):
+        sys.exit(EXIT_FINDINGS)
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()

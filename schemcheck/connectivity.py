@@ -32,6 +32,7 @@ from .io.kicad_sch import LibSymbol, PlacedSymbol, Point, SheetFile, pin_point
 from .model import Net, Netlist, Node, Part, Pin, natural_key as _natural
 
 _PRIORITY = {"power": 6, "global_label": 5, "label": 4, "hierarchical_label": 3}
+_KIND_OF_PRIORITY = {value: key for key, value in _PRIORITY.items()}
 #: Bus vectors ``D[0..7]`` and bus groups ``{A B}`` / ``NAME{A B}``; not ``~{X}`` (overbar),
 #: ``_{X}`` or ``^{X}`` (sub/superscript markup), which are ordinary net names.
 _BUS_NAME = re.compile(r"\[\d+\.\.\d+\]|(?:^|[^~_^])\{")
@@ -366,7 +367,9 @@ def build_netlist(design: Design) -> Netlist:
         if cands:
             best = min(cands)
             labels = tuple(sorted({c[2] for c in cands}))
-            nets.append(Net(best[2], ordered, True, -best[0] >= _PRIORITY["global_label"], labels))
+            kind = _KIND_OF_PRIORITY[-best[0]]
+            nets.append(Net(best[2], ordered, True, -best[0] >= _PRIORITY["global_label"], labels,
+                            kind))
         else:
             first = ordered[0]
             nets.append(Net(f"unnamed-{first.ref}-{first.pin}", ordered, False, False, ()))

@@ -85,6 +85,8 @@ class Net:
     named: bool = True
     is_global: bool = False
     labels: tuple[str, ...] = ()
+    #: what gave the name: "power", "global_label", "label", "hierarchical_label", "" (none)
+    kind: str = ""
 
 
 @dataclass(frozen=True, slots=True)
@@ -144,3 +146,25 @@ class Netlist:
                 if node.ref == ref and node.pin == pin:
                     return net
         return None
+
+
+SEVERITIES = ("info", "warning", "error")
+
+
+@dataclass(frozen=True, slots=True)
+class Finding:
+    """One design defect or observation. ``rule`` ids are part of the interface."""
+
+    rule: str
+    severity: str  # "info", "warning", "error"
+    ref: str
+    unit: int | None
+    message: str
+    suggestion: str = ""
+    sheet: str = ""
+    file: str = ""
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"rule": self.rule, "severity": self.severity, "ref": self.ref,
+                "unit": self.unit, "message": self.message, "suggestion": self.suggestion,
+                "sheet": self.sheet, "file": self.file}

@@ -13,12 +13,18 @@ unit 0 unless the libpart lists its units.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
 from typing import Any
 
 from ..errors import ParseError
 from ..model import Net, Netlist, Node, Part, Pin, natural_key as _natural
 from . import sexpr
+
+#: Net names that are supply rails when a netlist does not say which nets came from
+#: power symbols (common practice in KiCad's power library names).
+POWER_NAME = re.compile(r"^(?:[AD]?GND[A-Z0-9_]*|GNDA|GNDD|PGND|EARTH|V(?:CC|DD|EE|SS|BAT|BUS)"
+                        r"[A-Z0-9_]*|[+-]\d+(?:[.V]\d*)?V?\d*[A-Z0-9_]*|VREF)$", re.I)
 
 
 @dataclass(slots=True)
@@ -70,8 +76,10 @@ def _assemble(comps: list[_Comp], libparts: dict[tuple[str, str], _LibPart],
                       key=lambda n: (_natural(n.ref), _natural(n.pin)))
         if kept:
             generated = name.startswith(("Net-(", "unconnected-("))
-            out_nets.append(Net(name, tuple(kept), not generated, not name.startswith("/")
-                                and not generated, ()))
+            kind = ("" if generated else "label" if name.startswith("/") else
+                    "power" if POWER_NAME.match(name) else "global_label")
+            out_nets.append(Net(name, tuple(kept), not generated,
+                                kind in ("power", "global_label"), (), kind))
     out_nets.sort(key=lambda n: _natural(n.name))
     parts.sort(key=lambda p: (_natural(p.ref), p.unit))
     return Netlist(nets=tuple(out_nets), parts=tuple(parts), source=source, format=fmt,

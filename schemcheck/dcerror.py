@@ -1,0 +1,316 @@
+"""DC network solve: the sensitivity of every op-amp output to every op-amp's Vos, Ib+
+and Ib- (pure, numpy).
+
+Modified nodal analysis over each connected part of the network, every op-amp in it:
+
+* ideal op-amp: V(-) = V(+) + Vos (Vos in series with the + input, so a grounded
+  buffer outputs +Vos); with a finite open-loop gain Aol: Vout = Aol (V(+) + Vos - V(-));
+* Ib+ and Ib- flow into the pins (out of the nets);
+* one solve with every error source as a right-hand-side column gives all
+  sensitivities at once, so chains, feedback around several op-amps and shared nodes
+  need no special cases.
+
+An op-amp whose input has no DC path (``no-bias-path``) or whose output has no DC path
+back to its inverting input (``no-dc-feedback``) has no defined DC output. It is solved
+as a source of unknown value: its own figures are unknown, and any output that depends
+on it is marked ``tainted`` (its totals unknown, never a made-up number).
+"""
+
+from __future__ import annotations
+
+from collections import deque
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .network import Network
+
+SOURCES = ("vos", "ib_plus", "ib_minus")
+
+
+@dataclass(slots=True)
+class Component:
+    """One independent piece of the network: its unknown nets and op-amps."""
+
+    nets: list[str]
+    opamps: list[int]  # indices into Network.opamps (analysed ones)
+    resistors: list[int]  # indices into Network.resistors
+
+
+@dataclass(slots=True)
+class System:
+    """The MNA system of one component, split so resistor values can change:
+    A(g) = base + sum_r g_r * stamp_r; right-hand sides one column per source."""
+
+    component: Component
+    base: np.ndarray
+    stamps: list[tuple[int, int]]  # per resistor: (row/col of a, of b); -1 = fixed net
+    conductance: np.ndarray
+    rhs: np.ndarray
+    columns: list[tuple[int, str]]  # per rhs column: (op-amp index, source or "unknown")
+    out_rows: dict[int, int]  # op-amp index -> row of its output net
+    net_rows: dict[str, int]
+
+    def matrix(self, conductance: np.ndarray | None = None) -> np.ndarray:
+        g = self.conductance if conductance is None else conductance
+        a = self.base.copy()
+        for (i, j), value in zip(self.stamps, g):
+            _stamp(a, i, j, value)
+        return a
+
+
+def _stamp(a: np.ndarray, i: int, j: int, g: float) -> None:
+    if i >= 0:
+        a[i, i] += g
+    if j >= 0:
+        a[j, j] += g
+    if i >= 0 and j >= 0:
+        a[i, j] -= g
+        a[j, i] -= g
+
+
+@dataclass(slots=True)
+class Solution:
+    """Sensitivities and status of every op-amp of the network."""
+
+    #: per op-amp index: "ok", "no-bias-path", "no-dc-feedback", "unsolvable", "output-fixed"
+    status: list[str]
+    #: op-amp k -> {(op-amp j, source): dVout_k / dsource}
+    sensitivity: list[dict[tuple[int, str], float]]
+    #: op-amp k's output depends on an op-amp with no defined DC output
+    tainted: list[bool]
+    #: op-amp k -> inputs with no DC path: [("+", net), ...]
+    floating_inputs: list[list[tuple[str, str]]]
+    systems: list[System] = field(default_factory=list)
+    component_of: dict[int, int] = field(default_factory=dict)  # op-amp -> system index
+    floating_nets: set[str] = field(default_factory=set)
+
+    def own(self, k: int) -> dict[str, float] | None:
+        """Sensitivities of op-amp k's output to its own sources (V/V, V/A)."""
+        if self.status[k] != "ok":
+            return None
+        return {s: self.sensitivity[k].get((k, s), 0.0) for s in SOURCES}
+
+
+def _adjacency(network: Network) -> dict[str, set[str]]:
+    adj: dict[str, set[str]] = {}
+    for r in network.resistors:
+        adj.setdefault(r.a, set()).add(r.b)
+        adj.setdefault(r.b, set()).add(r.a)
+    return adj
+
+
+def grounded_nets(network: Network) -> set[str]:
+    """Nets with a DC path (through resistors) to a fixed net or an op-amp output."""
+    adj = _adjacency(network)
+    seeds = set(network.fixed) | {op.out for op in network.opamps}
+    seen = set(seeds)
+    queue = deque(seeds)
+    while queue:
+        net = queue.popleft()
+        for other in adj.get(net, ()):
+            if other not in seen:
+                seen.add(other)
+                queue.append(other)
+    return seen
+
+
+def _through(network: Network) -> dict[str, set[str]]:
+    """Op-amp input net -> output nets it drives."""
+    through: dict[str, set[str]] = {}
+    for other in network.opamps:
+        for pin in (other.plus, other.minus):
+            through.setdefault(pin, set()).add(other.out)
+    return through
+
+
+def has_dc_feedback(network: Network, k: int, adj: dict[str, set[str]] | None = None,
+                    through: dict[str, set[str]] | None = None) -> bool:
+    """True when op-amp k's output reaches its inverting input through resistors and
+    other op-amps (input -> output), without passing through a fixed net."""
+    opamp = network.opamps[k]
+    if opamp.out == opamp.minus:
+        return True
+    fixed = network.fixed
+    if opamp.minus in fixed or opamp.out in fixed:
+        return False
+    adj = _adjacency(network) if adj is None else adj
+    through = _through(network) if through is None else through
+    seen = {opamp.out}
+    queue = deque([opamp.out])
+    while queue:
+        net = queue.popleft()
+        for nxt in adj.get(net, set()) | through.get(net, set()):
+            if nxt in fixed or nxt in seen:
+                continue
+            if nxt == opamp.minus:
+                return True
+            seen.add(nxt)
+            queue.append(nxt)
+    return False
+
+
+def _components(network: Network, active: set[str]) -> list[Component]:
+    parent: dict[str, str] = {n: n for n in active}
+
+    def find(n: str) -> str:
+        while parent[n] != n:
+            parent[n] = parent[parent[n]]
+            n = parent[n]
+        return n
+
+    def union(a: str, b: str) -> None:
+        if a in parent and b in parent:
+            ra, rb = find(a), find(b)
+            if ra != rb:
+                parent[rb] = ra
+
+    for r in network.resistors:
+        union(r.a, r.b)
+    for op in network.opamps:
+        for net in (op.plus, op.minus):
+            union(net, op.out)
+    groups: dict[str, Component] = {}
+    for net in sorted(active):
+        groups.setdefault(find(net), Component([], [], [])).nets.append(net)
+    for k, op in enumerate(network.opamps):
+        for net in (op.out, op.minus, op.plus):
+            if net in parent:
+                groups[find(net)].opamps.append(k)
+                break
+    for i, r in enumerate(network.resistors):
+        for net in (r.a, r.b):
+            if net in parent:
+                groups[find(net)].resistors.append(i)
+                break
+    return [c for c in groups.values() if c.opamps]
+
+
+def build_system(network: Network, component: Component, status: list[str]) -> System:
+    """The MNA system of ``component`` (unknowns: net voltages, then one output current
+    per op-amp whose output net is not fixed)."""
+    rows = {net: i for i, net in enumerate(component.nets)}
+    n = len(rows)
+    drivers = [k for k in component.opamps if network.opamps[k].out in rows]
+    size = n + len(drivers)
+    base = np.zeros((size, size))
+    columns: list[tuple[int, str]] = []
+    for k in component.opamps:
+        columns.extend((k, s) for s in SOURCES)
+        if status[k] != "ok":
+            columns.append((k, "unknown"))
+    rhs = np.zeros((size, len(columns)))
+    col = {key: i for i, key in enumerate(columns)}
+    out_rows = {}
+    for d, k in enumerate(drivers):
+        op = network.opamps[k]
+        row = n + d
+        o = rows[op.out]
+        out_rows[k] = o
+        base[o, row] -= 1.0  # the op-amp's output current enters its output net
+        if status[k] == "ok":
+            p, m = rows.get(op.plus, -1), rows.get(op.minus, -1)
+            if op.aol:
+                base[row, o] += 1.0 / op.aol  # Vout/Aol - V(+) + V(-) = Vos
+            if m >= 0:
+                base[row, m] += 1.0
+            if p >= 0:
+                base[row, p] -= 1.0
+            rhs[row, col[(k, "vos")]] = 1.0
+        else:
+            base[row, o] = 1.0  # V(out) = unknown source
+            rhs[row, col[(k, "unknown")]] = 1.0
+    for k in component.opamps:
+        op = network.opamps[k]
+        for net, source in ((op.plus, "ib_plus"), (op.minus, "ib_minus")):
+            if net in rows:
+                rhs[rows[net], col[(k, source)]] = -1.0  # current flows into the pin
+    stamps = []
+    conductance = []
+    for i in component.resistors:
+        r = network.resistors[i]
+        stamps.append((rows.get(r.a, -1), rows.get(r.b, -1)))
+        conductance.append(1.0 / r.ohms)
+    return System(component, base, stamps, np.array(conductance), rhs, columns, out_rows, rows)
+
+
+def solve(network: Network) -> Solution:
+    """Sensitivities of every op-amp output to every op-amp's Vos, Ib+ and Ib-."""
+    m = len(network.opamps)
+    grounded = grounded_nets(network)
+    status = ["ok"] * m
+    floating: list[list[tuple[str, str]]] = [[] for _ in range(m)]
+    adj, through = _adjacency(network), _through(network)
+    for k, op in enumerate(network.opamps):
+        if op.out in network.fixed:
+            status[k] = "output-fixed"
+            continue
+        for sign, net in (("+", op.plus), ("-", op.minus)):
+            if net not in grounded:
+                floating[k].append((sign, net))
+        if floating[k]:
+            status[k] = "no-bias-path"
+        elif not has_dc_feedback(network, k, adj, through):
+            status[k] = "no-dc-feedback"
+    all_nets = {r.a for r in network.resistors} | {r.b for r in network.resistors}
+    for op in network.opamps:
+        all_nets.update((op.plus, op.minus, op.out))
+    active = {n for n in all_nets if n in grounded and n not in network.fixed}
+    solution = Solution(status, [dict() for _ in range(m)], [False] * m, floating,
+                        floating_nets=all_nets - grounded)
+    for c_index, component in enumerate(_components(network, active)):
+        system = build_system(network, component, status)
+        solution.systems.append(system)
+        for k in component.opamps:
+            solution.component_of[k] = c_index
+        try:
+            a = system.matrix()
+            if np.linalg.cond(a) > 1e13:
+                raise np.linalg.LinAlgError("ill-conditioned")
+            x = np.linalg.solve(a, system.rhs)
+        except np.linalg.LinAlgError:
+            for k in component.opamps:
+                if status[k] == "ok":
+                    status[k] = "unsolvable"
+            continue
+        for k, row in system.out_rows.items():
+            values = x[row]
+            for (j, source), value in zip(system.columns, values):
+                if source == "unknown":
+                    if abs(value) > 1e-12:
+                        solution.tainted[k] = True
+                elif status[j] == "ok" or source != "vos":
+                    if value != 0.0:
+                        solution.sensitivity[k][(j, source)] = float(value)
+    return solution
+
+
+def output_errors(system: System, conductance: np.ndarray, sources: np.ndarray,
+                  chunk: int = 8192) -> np.ndarray:
+    """Output errors of every driven op-amp for many samples at once.
+
+    ``conductance``: (samples, resistors) S; ``sources``: (samples, columns) source
+    values in the order of ``system.columns``. Returns (samples, driven op-amps) in the
+    order of ``system.out_rows``. Vectorised over samples in chunks (bounded memory).
+    """
+    samples = conductance.shape[0]
+    size = system.base.shape[0]
+    rows = list(system.out_rows.values())
+    out = np.empty((samples, len(rows)))
+    for start in range(0, samples, chunk):
+        g = conductance[start:start + chunk]
+        count = g.shape[0]
+        a = np.broadcast_to(system.base, (count, size, size)).copy()
+        for r, (i, j) in enumerate(system.stamps):
+            value = g[:, r]
+            if i >= 0:
+                a[:, i, i] += value
+            if j >= 0:
+                a[:, j, j] += value
+            if i >= 0 and j >= 0:
+                a[:, i, j] -= value
+                a[:, j, i] -= value
+        b = sources[start:start + count] @ system.rhs.T
+        x = np.linalg.solve(a, b[..., None])[..., 0]
+        out[start:start + count] = x[:, rows]
+    return out

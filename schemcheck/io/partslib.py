@@ -1,0 +1,66 @@
+"""Read the parts library: a TOML file of op-amp DC parameters.
+
+Format (names of our own)::
+
+    # typical and maximum at 25 °C; hot values at t_hot (°C)
+    [parts."OPX-1"]
+    aliases = ["OPX1A"]
+    input = "bipolar"          # bipolar | jfet | cmos
+    vos = { typ = "0.3mV", max = "1mV" }
+    ib = { typ = "20nA", max = "80nA" }
+    ios = { typ = "2nA", max = "10nA" }
+    tcvos = { max = "5uV/°C" }
+    ib_hot = { max = "150nA" }
+    t_hot = 85
+    aol = "100dB"
+
+An entry matches a symbol by its part-number field (``MPN``, ``Part Number``) or its
+value, case-insensitively, or by one of its aliases.
+"""
+
+from __future__ import annotations
+
+import os
+import tomllib
+from typing import Any
+
+from ..errors import ParseError
+from ..params import ParameterError, from_library
+from .files import read_text
+
+_ENTRY_KEYS = {"aliases", "input", "vos", "ib", "ios", "tcvos", "ib_hot", "ios_hot", "t_hot",
+               "aol", "ib_either_sign", "description", "rule", "measured"}
+
+
+def load_parts_library(path: str | os.PathLike[str]) -> dict[str, dict[str, Any]]:
+    """The ``parts`` table of the library at ``path``, every entry checked."""
+    name = os.fspath(path)
+    text = read_text(name)
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as error:
+        line, column = _toml_position(str(error))
+        raise ParseError(f"expected a TOML parts library: {error}", file=name, line=line,
+                         column=column) from None
+    parts = data.get("parts", {})
+    if not isinstance(parts, dict):
+        raise ParseError("expected a [parts] table of entries", file=name)
+    for entry_name, entry in parts.items():
+        if not isinstance(entry, dict):
+            raise ParseError(f"expected [parts.\"{entry_name}\"] to be a table", file=name)
+        unknown = sorted(set(entry) - _ENTRY_KEYS)
+        if unknown:
+            raise ParseError(f"parts.\"{entry_name}\": unknown key {unknown[0]!r} (expected one "
+                             f"of {', '.join(sorted(_ENTRY_KEYS))})", file=name)
+        try:
+            from_library(entry_name, entry)
+        except ParameterError as error:
+            raise ParseError(str(error), file=name) from None
+    return parts
+
+
+def _toml_position(message: str) -> tuple[int | None, int | None]:
+    import re
+
+    match = re.search(r"line (\d+), column (\d+)", message)
+    return (int(match.group(1)), int(match.group(2))) if match else (None, None)

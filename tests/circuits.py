@@ -1,0 +1,63 @@
+"""Build connectivity models directly (no drawing) for engine tests.
+
+``circuit("R1 in m 10k", "R2 m out 100k", "U1 p=GND m=m out=out Vos=1mV")``: each line is
+a resistor (R), capacitor (C), inductor (L), diode/other (D, Q), connector (J, one net
+per pin) or op-amp (U/IC: ``p=``, ``m=``, ``out=`` nets, then symbol fields). Nets named
+GND, VCC, VEE are power nets.
+"""
+
+from __future__ import annotations
+
+from schemcheck.model import Net, Netlist, Node, Part, Pin
+
+POWER = {"GND", "VCC", "VEE", "AGND"}
+
+
+def circuit(*lines: str) -> Netlist:
+    parts: list[Part] = []
+    nets: dict[str, list[Node]] = {}
+
+    def connect(ref: str, pin: str, net: str) -> None:
+        nets.setdefault(net, []).append(Node(ref, pin))
+
+    for line in lines:
+        words = line.split()
+        ref = words[0]
+        letter = ref.rstrip("0123456789")
+        if letter in ("R", "C", "L"):
+            a, b, value = words[1], words[2], words[3]
+            fields = dict(w.split("=", 1) for w in words[4:])
+            lib = {"R": "Device:R", "C": "Device:C", "L": "Device:L"}[letter]
+            pins = (Pin("1", "~", "passive", 1), Pin("2", "~", "passive", 1))
+            parts.append(Part(ref, 1, value, lib, "/", {"Reference": ref, "Value": value,
+                                                        **fields}, pins))
+            connect(ref, "1", a)
+            connect(ref, "2", b)
+        elif letter in ("D", "Q"):
+            pins = tuple(Pin(str(i + 1), f"P{i + 1}", "passive", 1) for i in range(len(words) - 1))
+            parts.append(Part(ref, 1, "X", "Device:D", "/", {"Reference": ref}, pins))
+            for i, net in enumerate(words[1:]):
+                connect(ref, str(i + 1), net)
+        elif letter == "J":
+            pins = tuple(Pin(str(i + 1), f"Pin_{i + 1}", "passive", 1)
+                         for i in range(len(words) - 1))
+            parts.append(Part(ref, 1, "CONN", "Connector:Conn_01x02", "/", {"Reference": ref},
+                              pins))
+            for i, net in enumerate(words[1:]):
+                connect(ref, str(i + 1), net)
+        else:  # op-amp
+            spec = dict(w.split("=", 1) for w in words[1:])
+            unit = int(spec.pop("unit", "1"))
+            pins = (Pin("3", "+", "input", unit), Pin("2", "-", "input", unit),
+                    Pin("1", "~", "output", unit))
+            fields = {"Reference": ref, "Value": spec.pop("value", "OPX"),
+                      **{k: v for k, v in spec.items() if k not in ("p", "m", "out")}}
+            parts.append(Part(ref, unit, fields["Value"], "Amplifier_Operational:Generic", "/",
+                              fields, pins, unit_count=2,
+                              description="Operational amplifier, generic"))
+            connect(ref, "3", spec["p"])
+            connect(ref, "2", spec["m"])
+            connect(ref, "1", spec["out"])
+    out_nets = tuple(Net(name, tuple(nodes), True, name in POWER, (),
+                         "power" if name in POWER else "label") for name, nodes in nets.items())
+    return Netlist(nets=out_nets, parts=tuple(parts), source="test", format="test")
