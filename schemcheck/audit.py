@@ -66,6 +66,11 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     network = build_network(netlist, units, skipped,
                             default_tolerance=settings.default_tolerance,
                             source_resistance=settings.source_resistance)
+    for unit in network.unused:
+        result.not_analysed.append({"ref": unit.part.ref, "unit": unit.part.unit,
+                                    "sheet": unit.part.sheet, "value": unit.part.value,
+                                    "reason": "unused amplifier (inputs tied to rails or open, "
+                                              "output not connected)"})
     problems = list(network.problems)
     params: list[OpampParams] = []
     for op in network.opamps:

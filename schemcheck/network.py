@@ -17,7 +17,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 
-from .model import Netlist, Part
+from .model import Netlist, Part, natural_key
 from .stages import OpampUnit, SkippedAmplifier
 from .units import ValueFormatError, parse_resistance, parse_tolerance
 
@@ -63,6 +63,7 @@ class Network:
     open_parts: dict[str, set[str]] = field(default_factory=dict)  # ref -> nets it touches
     assumptions: list[str] = field(default_factory=list)
     problems: list[str] = field(default_factory=list)
+    unused: list[OpampUnit] = field(default_factory=list)  # spare units, tied off
 
     def net(self, name: str) -> str:
         return self.canonical.get(name, name)
@@ -169,21 +170,23 @@ def build_network(netlist: Netlist, units: list[OpampUnit], skipped: list[Skippe
                 continue
             tol, tol_source = _tolerance(part, default_tolerance, problems)
             resistors_raw.append((part.ref, a, b, ohms, tol, tol_source))
-        elif kind == "pot" and len(part.pins) == 3 and part.ref not in seen_pot:
-            seen_pot.add(part.ref)
-            ends = [n for n in nets]
+        elif kind == "pot" and len(part.pins) == 3 and (part.ref, part.unit) not in seen_pot:
+            seen_pot.add((part.ref, part.unit))
             try:
-                ohms = parse_resistance(part.value, f"the value of {part.ref}")
+                ohms = parse_resistance(_leading_value(part.value), f"the value of {part.ref}")
             except ValueFormatError as error:
                 problems.append(f"{part.ref}: {error}; the potentiometer is left out (open)")
                 continue
-            if ohms is None or None in ends:
+            if ohms is None:
                 continue
             tol, tol_source = _tolerance(part, max(default_tolerance, 0.2), problems)
-            one, wiper, two = ends[0], ends[1], ends[2]
-            resistors_raw.append((f"{part.ref}(1-2)", one, wiper, ohms / 2, tol, tol_source))
-            resistors_raw.append((f"{part.ref}(2-3)", wiper, two, ohms / 2, tol, tol_source))
-            assumptions.append(f"{part.ref}: potentiometer taken at mid-travel "
+            order = sorted(range(3), key=lambda i: natural_key(part.pins[i].number))
+            one, wiper, two = (nets[i] for i in order)
+            name = part.ref if part.unit_count == 1 else f"{part.ref}/{part.unit}"
+            for a, b, side in ((one, wiper, "a"), (wiper, two, "b")):
+                if a is not None and b is not None:
+                    resistors_raw.append((f"{name}({side})", a, b, ohms / 2, tol, tol_source))
+            assumptions.append(f"{name}: potentiometer taken at mid-travel "
                                f"({ohms / 2:g} Ω each side)")
         elif kind == "connector":
             for n in nets:
@@ -214,6 +217,12 @@ def build_network(netlist: Netlist, units: list[OpampUnit], skipped: list[Skippe
         name = canon(net.name)
         if net.kind == "power":
             fixed[name] = "rail"
+    opamp_outs = {canon(pin_net[(u.part.ref, u.out.number)]) for u in units
+                  if (u.part.ref, u.out.number) in pin_net}
+    for net_name, why in sorted(_driven_by_others(netlist, pin_net, units).items()):
+        name = canon(net_name)
+        if name not in fixed and name not in opamp_outs:
+            fixed[name] = why
     for net_name, ref in connector_nets.items():
         name = canon(net_name)
         if name not in fixed and name not in driven:
@@ -237,20 +246,36 @@ def build_network(netlist: Netlist, units: list[OpampUnit], skipped: list[Skippe
                                f"resistance {ohms:g} Ω")
 
     opamps = []
+    unused = []
+    loads: dict[str, int] = {}
+    for net in netlist.nets:
+        loads[canon(net.name)] = loads.get(canon(net.name), 0) + len(net.nodes)
     for unit in units:
         ref = unit.part.ref
         ends = [pin_net.get((ref, pin.number)) for pin in (unit.plus, unit.minus, unit.out)]
+        if ends[2] is None or (ends[0] is None and ends[1] is None):
+            unused.append(unit)  # nothing on the output, or both inputs open: not a stage
+            continue
         if None in ends:
-            problems.append(f"{ref}: an input or output pin of unit {unit.part.unit} is on no "
-                            "net; the stage is not analysed")
+            problems.append(f"{ref}: an input pin of unit {unit.part.unit} is on no net; the "
+                            "stage is not analysed")
             continue
         plus, minus, out = (canon(n) for n in ends)
+        if (fixed.get(plus) == "rail" and fixed.get(minus) == "rail" and loads.get(out, 0) <= 1):
+            unused.append(unit)  # the usual tie-off of a spare amplifier
+            continue
         opamps.append(OpampNode(unit, plus, minus, out))
 
     network = Network(resistors, opamps, fixed, canonical, capacitors, open_parts,
-                      assumptions, problems)
+                      assumptions, problems, unused)
     _note_sources(network)
     return network
+
+
+def _leading_value(value: str) -> str:
+    """'A10k' (audio taper) -> '10k'; 'B100K' -> '100K'."""
+    match = re.match(r"^[ABC](\d.*)$", value.strip())
+    return match.group(1) if match else value
 
 
 def _tolerance(part: Part, default: float, problems: list[str]) -> tuple[float, str]:
@@ -285,6 +310,24 @@ def _driven_nets(netlist: Netlist, pin_net: dict[tuple[str, str], str],
     return driven
 
 
+def _driven_by_others(netlist: Netlist, pin_net: dict[tuple[str, str], str],
+                      units: list[OpampUnit]) -> dict[str, str]:
+    """Nets driven by an output pin of a part that is not an analysed op-amp (a DAC,
+    a reference, a regulator, a comparator): ideal sources for the error analysis."""
+    analysed = {(u.part.ref, u.out.number) for u in units}
+    found: dict[str, str] = {}
+    for part in netlist.parts:
+        if part.dnp or part.is_power:
+            continue
+        for pin in part.pins:
+            if pin.electrical_type in ("output", "power_out") and (part.ref, pin.number) not in analysed:
+                net = pin_net.get((part.ref, pin.number))
+                if net:
+                    found.setdefault(net, f"driven by {part.ref} pin {pin.number} "
+                                          f"({pin.electrical_type})")
+    return found
+
+
 def _note_sources(network: Network) -> None:
     """State, once per net, the nets taken as ideal 0 V sources near the op-amps."""
     near: set[str] = set()
@@ -299,6 +342,6 @@ def _note_sources(network: Network) -> None:
                                    f"analysis: {', '.join(rails)}")
     for net in sorted(near):
         why = network.fixed.get(net, "")
-        if why.startswith("external"):
+        if why.startswith(("external", "driven by")):
             network.assumptions.append(f"net {net}: {why}, taken as an ideal 0 V source "
                                        "(zero source impedance unless annotated)")

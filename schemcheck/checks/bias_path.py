@@ -7,7 +7,7 @@ from .context import StageContext
 
 
 def _reached_through(ctx: StageContext, net: str) -> list[str]:
-    """Capacitors (and open parts) that touch the floating region around ``net``."""
+    """Capacitors and open parts that touch the floating region around ``net``."""
     region = {net}
     changed = True
     while changed:
@@ -16,8 +16,10 @@ def _reached_through(ctx: StageContext, net: str) -> list[str]:
             if (r.a in region) != (r.b in region):
                 region.update((r.a, r.b))
                 changed = True
-    refs = sorted({ref for ref, a, b in ctx.network.capacitors if a in region or b in region})
-    return refs
+    caps = sorted({ref for ref, a, b in ctx.network.capacitors if a in region or b in region})
+    opens = sorted(f"{ref} (treated as open)" for ref, nets in ctx.network.open_parts.items()
+                   if nets & region)
+    return caps + opens
 
 
 def check_bias_path(ctx: StageContext) -> list[Finding]:

@@ -1,0 +1,127 @@
+"""Design-defect rules on small circuits.
+
+Outside sources: handbook and common-practice facts of the trade, named per test
+(the compensating resistor is Ri||Rf for inverting and non-inverting stages; a
+capacitor blocks DC so an input reached only through one has no bias path; an
+integrator without a DC feedback resistor has unbounded DC gain; FET-input bias
+currents do not track, so a compensating resistor adds error). Closed forms are
+worked out in each test.
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from schemcheck.audit import audit_netlist
+from schemcheck.settings import Settings
+
+from .circuits import circuit
+
+BIPOLAR = "Vos=1mV Ib=80nA Ios=10nA Input=bipolar"
+
+
+def run(*lines, **settings):
+    return audit_netlist(circuit(*lines), Settings(mc_samples=0, **settings))
+
+
+def rules(result):
+    return sorted((f.rule, f.severity, f.ref) for f in result.findings)
+
+
+def test_no_bias_path_through_capacitor():
+    # Common practice: an AC-coupled input with no resistor to ground has no DC path.
+    result = run("J1 IN GND", "C1 IN p 100n", "R1 GND m 10k", "R2 m out 100k",
+                 f"U1 p=p m=m out=out {BIPOLAR}")
+    assert rules(result) == [("no-bias-path", "error", "U1")]
+    finding = result.findings[0]
+    assert finding.message == ("the non-inverting (+) input of U1 unit 1 (net p) has no DC path "
+                               "for its bias current: it reaches the rest of the circuit only "
+                               "through C1; the output has no defined DC level")
+    stage = result.stages[0]
+    assert stage["status"] == "no-bias-path" and stage["worst_case_own_v"] is None
+
+
+def test_no_dc_feedback_integrator():
+    # Common practice: an integrator without a resistor across its capacitor.
+    result = run("R1 GND m 10k", "C1 m out 1u", f"U1 p=GND m=m out=out {BIPOLAR}")
+    assert rules(result) == [("no-dc-feedback", "error", "U1")]
+    assert result.stages[0]["topology"] == "integrator"
+    assert "the feedback goes only through C1" in result.findings[0].message
+
+
+def test_dependent_stage_is_unknown_not_made_up():
+    result = run("R1 GND m 10k", "C1 m o1 1u", f"U1 p=GND m=m out=o1 {BIPOLAR}",
+                 "R2 o1 m2 10k", "R3 m2 o2 10k", f"U2 p=GND m=m2 out=o2 {BIPOLAR}")
+    second = next(s for s in result.stages if s["ref"] == "U2")
+    assert second["worst_case_own_v"] is not None  # its own sources are known
+    assert second["worst_case_total_v"] is None and second["depends_on_undefined_output"]
+
+
+@pytest.mark.parametrize("stage", ["inverting", "non-inverting"])
+def test_mismatch_ideal_value_is_ri_parallel_rf(stage):
+    # Common practice (and handbook): the compensating resistor is Ri||Rf for both
+    # stages. Ri = 4.7k, Rf = 47k -> 4.2727k; nearest E96 4.32k, E24 4.3k (IEC 60063).
+    source = "GND"  # the signal source is 0 V for the error analysis either way
+    lines = [f"R1 {source} m 4.7k", "R2 m out 47k", "R3 p GND 22k", f"U1 p=p m=m out=out {BIPOLAR}"]
+    result = run(*lines)
+    mismatch = [f for f in result.findings if f.rule == "bias-resistor-mismatch"]
+    assert len(mismatch) == 1 and mismatch[0].severity == "warning"
+    assert mismatch[0].suggestion == "change R3 to 4.27 kΩ (E96 4.32 kΩ, E24 4.3 kΩ)"
+
+
+def test_matched_compensation_is_quiet():
+    result = run("R1 GND m 10k", "R2 m out 100k", "R3 p GND 9.09k", f"U1 p=p m=m out=out {BIPOLAR}")
+    assert rules(result) == []
+
+
+def test_info_when_adding_compensation_halves_the_error():
+    # Bipolar part, Ib >> Vos/Rf: without Rp the output error is dominated by Ib*Rf.
+    # Worked out: NG = 2, Rf = 1M: own worst case = 2*0.1mV + 1M*200nA + 0.5M*20nA
+    # = 0.2 + 200 + 10 mV; with Rp = 500k: 0.2 + 0 + 1M*20nA = 20.2 mV.
+    result = run("R1 GND m 1M", "R2 m out 1M", "U1 p=GND m=m out=out Vos=0.1mV Ib=200nA "
+                 "Ios=20nA Input=bipolar")
+    info = [f for f in result.findings if f.rule == "bias-resistor-mismatch"]
+    assert [(f.severity, f.suggestion) for f in info] == [
+        ("info", "add 500 kΩ (E96 499 kΩ, E24 510 kΩ) in series with the + input, bypassed with "
+                 "a capacitor if noise matters")]
+    assert result.stages[0]["worst_case_own_v"] == pytest.approx(0.2e-3 + 0.2 + 0.01, rel=1e-9)
+
+
+def test_compensation_harmful_for_fet_input():
+    # Common practice: FET-input bias currents do not track; Rp only adds Ib+ Rp NG.
+    # Worked out: NG = 11, Rp = 9.1k, Ib = 50 pA -> 5.005 uV at 25 °C.
+    result = run("R1 GND m 10k", "R2 m out 100k", "R3 p GND 9.1k",
+                 "U1 p=p m=m out=out Vos=2mV Ib=±50pA Ios=50pA Input=jfet")
+    harmful = [f for f in result.findings if f.rule == "bias-resistor-harmful"]
+    assert len(harmful) == 1
+    assert "adds up to 5.01 µV of output error at 25 °C" in harmful[0].message
+    assert harmful[0].suggestion.startswith("replace R3 with 0 Ω")
+
+
+def test_missing_parameters_reports_sensitivities():
+    result = run("R1 GND m 10k", "R2 m out 100k", "U1 p=GND m=m out=out")
+    assert rules(result) == [("missing-parameters", "warning", "U1")]
+    stage = result.stages[0]
+    assert stage["noise_gain"] == pytest.approx(11.0)
+    assert stage["sensitivity"]["ib_minus"] == pytest.approx(100e3)
+    assert stage["worst_case_own_v"] is None and stage["monte_carlo_v"] is None
+
+
+def test_over_budget_uses_worst_case_over_temperature():
+    # Worked out: NG = 11; Vos(70 °C) = 1 mV + 45 * 10 uV/°C = 1.45 mV -> 15.95 mV;
+    # s_ib = 100k - 11 * 9.09k = 10 -> 0.8 uV; s_ios = (11 * 9.09k + 100k) / 2 = 99.995k
+    # -> 0.99995 mV; total 16.9508 mV, over a 15 mV budget.
+    result = run("R1 GND m 10k", "R2 m out 100k", "R3 p GND 9.09k",
+                 f"U1 p=p m=m out=out {BIPOLAR} TCVos=10uV/°C DC_Budget=15mV")
+    assert rules(result) == [("over-budget", "error", "U1")]
+    stage = result.stages[0]
+    assert stage["worst_temp_c"] == 70.0
+    assert stage["worst_case_over_temp_v"] == pytest.approx(15.95e-3 + 0.8e-6 + 0.99995e-3,
+                                                            rel=1e-9)
+    assert stage["within_budget"] is False
+
+
+def test_rules_can_be_switched_off():
+    result = run("R1 GND m 10k", "R2 m out 100k", "U1 p=GND m=m out=out",
+                 disabled_rules=("missing-parameters",))
+    assert result.findings == []
