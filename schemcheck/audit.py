@@ -168,6 +168,8 @@ def _assumptions(network: Network, solution: Solution, settings: Settings,
         "without hot values, FET-input bias currents double every 10 °C and bipolar ones "
         "are flat; hot values apply at the part's T_hot or else at the top of the range",
         "referred-to-input figures divide the output error by the noise gain",
+        "worst-case and RSS figures use nominal resistor values; resistor tolerances enter "
+        "the Monte Carlo",
     ]
     out.extend(network.assumptions)
     opens = {}
