@@ -13,7 +13,7 @@ from . import checks
 from .budget import StageBudget, monte_carlo, stage_budget
 from .checks.context import StageContext
 from .dcerror import Solution, solve
-from .model import Finding, Netlist
+from .model import Finding, Netlist, natural_key
 from .network import Network, build_network
 from .params import OpampParams, ParameterError, resolve
 from .settings import Settings
@@ -186,9 +186,13 @@ def _assumptions(network: Network, solution: Solution, settings: Settings,
     if opens:
         out.append("treated as open at DC where they touch an analysed net: "
                    + ", ".join(f"{ref} ({', '.join(nets)})" for ref, nets in opens.items()))
-    defaults = sorted({f"{network.opamps[k].unit.part.ref}: {name} {src}"
-                       for k, p in enumerate(params) for name, src in p.source.items()
-                       if src.startswith("default") and name in ("ios", "tcvos")})
-    if defaults:
-        out.append("default parameter values used: " + "; ".join(defaults))
+    defaults: dict[str, set[str]] = {}
+    for k, p in enumerate(params):
+        for name, src in p.source.items():
+            if src.startswith("default") and name in ("ios", "tcvos"):
+                defaults.setdefault(f"{name} {src}", set()).add(network.opamps[k].unit.part.ref)
+    for what, refs in sorted(defaults.items()):
+        names = sorted(refs, key=natural_key)
+        shown = ", ".join(names[:12]) + (f" and {len(names) - 12} more" if len(names) > 12 else "")
+        out.append(f"default parameter value used: {what} for {shown}")
     return out

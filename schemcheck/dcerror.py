@@ -283,34 +283,3 @@ def solve(network: Network) -> Solution:
                     if value != 0.0:
                         solution.sensitivity[k][(j, source)] = float(value)
     return solution
-
-
-def output_errors(system: System, conductance: np.ndarray, sources: np.ndarray,
-                  chunk: int = 8192) -> np.ndarray:
-    """Output errors of every driven op-amp for many samples at once.
-
-    ``conductance``: (samples, resistors) S; ``sources``: (samples, columns) source
-    values in the order of ``system.columns``. Returns (samples, driven op-amps) in the
-    order of ``system.out_rows``. Vectorised over samples in chunks (bounded memory).
-    """
-    samples = conductance.shape[0]
-    size = system.base.shape[0]
-    rows = list(system.out_rows.values())
-    out = np.empty((samples, len(rows)))
-    for start in range(0, samples, chunk):
-        g = conductance[start:start + chunk]
-        count = g.shape[0]
-        a = np.broadcast_to(system.base, (count, size, size)).copy()
-        for r, (i, j) in enumerate(system.stamps):
-            value = g[:, r]
-            if i >= 0:
-                a[:, i, i] += value
-            if j >= 0:
-                a[:, j, j] += value
-            if i >= 0 and j >= 0:
-                a[:, i, j] -= value
-                a[:, j, i] -= value
-        b = sources[start:start + count] @ system.rhs.T
-        x = np.linalg.solve(a, b[..., None])[..., 0]
-        out[start:start + count] = x[:, rows]
-    return out

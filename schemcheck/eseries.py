@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import bisect
 import math
 
 #: IEC 60063 E24 (from the standard's table; eight values differ from rounding the
@@ -18,18 +19,23 @@ E96 = (100, 102, 105, 107, 110, 113, 115, 118, 121, 124, 127, 130, 133, 137, 140
 SERIES = {"E24": E24, "E96": E96}
 
 
+def _decades(table: tuple[int, ...]) -> tuple[list[float], list[float]]:
+    """The series over 30 decades (1e-6 to 1e24 ohms), as values and their logarithms."""
+    scale = 10 ** (len(str(table[0])) - 1)
+    values = [m / scale * 10.0 ** d for d in range(-6, 24) for m in table]
+    return values, [math.log(v) for v in values]
+
+
+_TABLES = {name: _decades(table) for name, table in SERIES.items()}
+
+
 def nearest(value: float, series: str) -> float:
     """The value of ``series`` nearest to ``value`` (ohms), by ratio (log distance)."""
     if value <= 0 or not math.isfinite(value):
         raise ValueError(f"expected a positive resistance, found {value!r}")
-    table = SERIES[series]
-    decade = math.floor(math.log10(value)) - (len(str(table[0])) - 1)
-    best = None
-    for shift in (decade - 1, decade, decade + 1):
-        for mantissa in table:
-            candidate = mantissa * 10.0 ** shift
-            distance = abs(math.log(candidate / value))
-            if best is None or distance < best[0]:
-                best = (distance, candidate)
-    assert best is not None
-    return float(f"{best[1]:.6g}")
+    values, logs = _TABLES[series]
+    target = math.log(value)
+    i = bisect.bisect_left(logs, target)
+    candidates = [j for j in (i - 1, i) if 0 <= j < len(values)]
+    best = min(candidates, key=lambda j: abs(logs[j] - target))
+    return float(f"{values[best]:.6g}")

@@ -57,14 +57,17 @@ class Part:
     is_power: bool = False
     source_file: str = ""
     uuid: str = ""
+    _folded: dict[str, str] | None = field(default=None, compare=False, repr=False)
 
     def field(self, name: str, default: str | None = None) -> str | None:
         """The field ``name``, matched case-insensitively."""
-        wanted = name.casefold()
-        for key, value in self.fields.items():
-            if key.casefold() == wanted:
-                return value
-        return default
+        folded = self._folded
+        if folded is None:
+            folded = {}
+            for key, value in self.fields.items():
+                folded.setdefault(key.casefold(), value)
+            object.__setattr__(self, "_folded", folded)
+        return folded.get(name.casefold(), default)
 
 
 @dataclass(frozen=True, slots=True, order=True)

@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 from .model import Netlist, Part, natural_key
 from .stages import OpampUnit, SkippedAmplifier
@@ -65,8 +66,21 @@ class Network:
     problems: list[str] = field(default_factory=list)
     unused: list[OpampUnit] = field(default_factory=list)  # spare units, tied off
 
+    _by_net: dict[str, list[Resistor]] | None = None
+
     def net(self, name: str) -> str:
         return self.canonical.get(name, name)
+
+    def resistors_at(self, net: str) -> list[Resistor]:
+        """Resistors with a terminal on ``net`` (indexed on first use)."""
+        if self._by_net is None:
+            index: dict[str, list[Resistor]] = {}
+            for r in self.resistors:
+                index.setdefault(r.a, []).append(r)
+                if r.b != r.a:
+                    index.setdefault(r.b, []).append(r)
+            self._by_net = index
+        return self._by_net.get(net, [])
 
 
 class _Merge:
@@ -90,15 +104,15 @@ class _Merge:
             self.parent[drop] = keep
 
 
-def _symbol_name(part: Part) -> str:
-    return part.lib_id.split(":", 1)[-1]
-
-
 def _kind(part: Part) -> str:
     """resistor, capacitor, short, pot, connector or other."""
-    name = _symbol_name(part)
     prefix = re.match(r"^[A-Za-z#]+", part.ref)
-    letters = prefix.group(0).upper() if prefix else ""
+    return _kind_of(part.lib_id, prefix.group(0).upper() if prefix else "")
+
+
+@lru_cache(maxsize=4096)
+def _kind_of(lib_id: str, letters: str) -> str:
+    name = lib_id.split(":", 1)[-1]
     if _POT.match(name) or letters in ("RV", "VR"):
         return "pot"
     if _RESISTOR.match(name) or (letters == "R" and not name):
@@ -107,10 +121,10 @@ def _kind(part: Part) -> str:
         return "capacitor"
     if _SHORT.match(name) or letters in ("L", "FB") and not name:
         return "short"
-    if _CONNECTOR_LIB.match(part.lib_id) or (letters in ("J", "P", "CN", "X")
-                                              and name.lower().startswith("conn")):
+    if _CONNECTOR_LIB.match(lib_id) or (letters in ("J", "P", "CN", "X")
+                                         and name.lower().startswith("conn")):
         return "connector"
-    if not part.lib_id and letters in ("R", "C", "L", "FB", "J"):
+    if not lib_id and letters in ("R", "C", "L", "FB", "J"):
         return {"R": "resistor", "C": "capacitor", "L": "short", "FB": "short",
                 "J": "connector"}[letters]
     return "other"

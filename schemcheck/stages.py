@@ -147,7 +147,7 @@ def recognise(parts: tuple[Part, ...] | list[Part]
     units: list[OpampUnit] = []
     skipped: list[SkippedAmplifier] = []
     for part in parts:
-        if part.dnp or part.is_power or not part.pins:
+        if part.dnp or part.is_power or len(part.pins) < 3:
             continue
         forced = _forced(part)
         if forced is False:

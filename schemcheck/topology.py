@@ -12,17 +12,10 @@ from .network import Network
 def label(network: Network, k: int, status: str) -> str:
     op = network.opamps[k]
     fixed = network.fixed
-    resistors = network.resistors
     caps = network.capacitors
 
     def resistors_at(net: str) -> list[tuple[str, float]]:
-        out = []
-        for r in resistors:
-            if r.a == net:
-                out.append((r.b, r.ohms))
-            elif r.b == net:
-                out.append((r.a, r.ohms))
-        return out
+        return [(r.b if r.a == net else r.a, r.ohms) for r in network.resistors_at(net)]
 
     def rail(net: str) -> bool:
         return fixed.get(net) == "rail"
@@ -39,8 +32,10 @@ def label(network: Network, k: int, status: str) -> str:
         return "composite/other"
     to_ground = [n for n in inputs if rail(n)]
     signal_inputs = [n for n in inputs if not rail(n)]
-    plus_quiet = rail(op.plus) or all(rail(n) for n, _ in resistors_at(op.plus)) and \
-        op.plus not in fixed and resistors_at(op.plus)
+    plus_links = resistors_at(op.plus)
+    # the + input is quiet when it sits on a rail or sees only resistors to rails
+    plus_quiet = rail(op.plus) or (bool(plus_links) and op.plus not in fixed
+                                   and all(rail(n) for n, _ in plus_links))
     touched = [ref for ref, nets in network.open_parts.items() if op.minus in nets]
     if not inputs and plus_quiet:
         return "transimpedance" if touched else "composite/other"

@@ -32,7 +32,7 @@ def _values(ideal: float) -> str:
 def compensation_resistor(ctx: StageContext, k: int):
     """The one resistor from the + input to a rail, when that is all the + input has."""
     op = ctx.network.opamps[k]
-    at_plus = [r for r in ctx.network.resistors if op.plus in (r.a, r.b)]
+    at_plus = ctx.network.resistors_at(op.plus)
     if len(at_plus) != 1:
         return None
     r = at_plus[0]
