@@ -89,8 +89,10 @@ def netlist(path: str, fmt: str) -> None:
 
 
 @main.command()
-@click.argument("path", type=click.Path(dir_okay=False, path_type=str))
-@_format_option(("json", "text"), "json")
+@click.argument("paths", nargs=-1, required=True, type=str)
+@_format_option(("json", "text", "markdown", "sarif"), "json")
+@click.option("--output", "-o", "output", type=click.Path(dir_okay=False, path_type=str),
+              default=None, help="Write the report to FILE instead of standard output.")
 @click.option("--temp", "temp", metavar="MIN:MAX", default=None,
               help="Operating temperature range in °C (default 0:70).")
 @click.option("--parts", "parts", type=click.Path(dir_okay=False, path_type=str), default=None,
@@ -100,35 +102,85 @@ def netlist(path: str, fmt: str) -> None:
 @click.option("--samples", "samples", type=click.IntRange(0, 1_000_000), default=None,
               help="Monte Carlo samples per network (default 10000; 0 turns it off).")
 @click.option("--seed", "seed", type=int, default=None, help="Monte Carlo seed (default 1).")
+@click.option("--settings", "settings_path", type=click.Path(dir_okay=False, path_type=str),
+              default=None, help="Settings file to use instead of schemcheck.toml beside "
+                                 "each design.")
+@click.option("--jobs", "-j", "jobs", type=click.IntRange(1, 256), default=None,
+              help="Worker processes (default: the machine's cores).")
+@click.option("--fail-on", "fail_on", type=click.Choice(("info", "warning", "error")),
+              default="error", show_default=True,
+              help="Exit with status 1 when a finding of this severity or worse is found.")
+@click.option("--no-cache", "no_cache", is_flag=True, help="Audit everything afresh.")
+@click.option("--cache-file", "cache_file", type=click.Path(dir_okay=False, path_type=str),
+              default=None, help="Results database (default: in the user cache folder).")
 @_reports_errors
-def audit(path: str, fmt: str, temp: str | None, parts: str | None, budget: str | None,
-          samples: int | None, seed: int | None) -> None:
-    """Audit the DC output error of every op-amp stage of a design.
+def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None,
+          parts: str | None, budget: str | None, samples: int | None, seed: int | None,
+          settings_path: str | None, jobs: int | None, fail_on: str, no_cache: bool,
+          cache_file: str | None) -> None:
+    """Audit the DC output error of every op-amp stage of one or many designs.
 
-    Exit status: 0 no error finding, 1 error findings, 2 unreadable input.
+    PATHS are schematics, exported netlists, project folders or folders of many
+    projects (searched recursively; child sheets are audited through their root).
+    Settings come from schemcheck.toml beside each design; options override it.
+
+    Exit status: 0 no finding at or above --fail-on, 1 such findings, 2 unreadable
+    input or bad usage.
 
     \b
     Example:
       schemcheck audit frontend.kicad_sch --temp -40:85 --parts opamps.toml --format text
+      schemcheck audit designs/ --jobs 4 --format markdown --output checklist.md
     """
-    from .runner import audit_files, options_to_settings
+    from .batch import Progress, audit_paths, exit_status
+    from .runner import options_to_overrides
 
-    settings = options_to_settings(temp=temp, parts=parts, budget=budget, samples=samples,
-                                   seed=seed)
-    report = audit_files([path], settings)
-    if fmt == "json":
-        _emit(_json(report))
+    overrides = options_to_overrides(temp=temp, parts=parts, budget=budget, samples=samples,
+                                     seed=seed)
+    cache = None
+    if not no_cache:
+        from .cache import ResultCache
+
+        cache = ResultCache(cache_file)
+    try:
+        report = audit_paths(list(paths), overrides=overrides, settings_path=settings_path,
+                             jobs=jobs, cache=cache, progress=Progress())
+    finally:
+        if cache is not None:
+            cache.close()
+    text = _render(report, fmt, output)
+    if output:
+        from .io.files import write_text
+
+        write_text(output, text)
     else:
+        _emit(text)
+    for warning in report.get("warnings", []):
+        click.echo(f"Warning: {warning}", err=True)
+    for design in report["designs"]:
+        for error in design["errors"]:
+            click.echo(f"Error: {error}", err=True)
+    sys.exit(exit_status(report, fail_on))
+
+
+def _render(report: dict[str, Any], fmt: str, output: str | None) -> str:
+    if fmt == "json":
+        return _json(report)
+    if fmt == "text":
         from .report.audit_text import audit_text
 
-        _emit(audit_text(report))
-    errors = [e for d in report["designs"] for e in d["errors"]]
-    for error in errors:
-        click.echo(f"Error: {error}", err=True)
-    if errors:
-        sys.exit(EXIT_BAD_INPUT)
-    if any(f["severity"] == "error" for d in report["designs"] for f in d["findings"]):
-        sys.exit(EXIT_FINDINGS)
+        return audit_text(report)
+    if fmt == "markdown":
+        from .report.markdown import checklist
+
+        return checklist(report)
+    import json
+    import os
+
+    from .report.sarif import sarif
+
+    base = os.path.dirname(os.path.abspath(output)) if output else os.getcwd()
+    return json.dumps(sarif(report, base), indent=2, ensure_ascii=False)
 
 
 if __name__ == "__main__":  # pragma: no cover

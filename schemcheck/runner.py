@@ -1,27 +1,24 @@
-"""The I/O edge of the audit: read files and settings, call the pure engine."""
+"""Command-line options -> settings overrides, and the one call the CLI makes."""
 
 from __future__ import annotations
 
 from dataclasses import replace
 from typing import Any
 
-from . import __version__
-from .audit import audit_netlist
 from .errors import ParseError
 from .settings import Settings
 from .units import ValueFormatError, parse_quantity, parse_temperature_range
 
 
-def options_to_settings(*, temp: str | None = None, parts: str | None = None,
-                        budget: str | None = None, samples: int | None = None,
-                        seed: int | None = None, base: Settings | None = None) -> Settings:
-    """Command-line options over ``base`` (or the defaults)."""
-    settings = base or Settings()
-    given = set(settings.given)
+def options_to_overrides(*, temp: str | None = None, parts: str | None = None,
+                         budget: str | None = None, samples: int | None = None,
+                         seed: int | None = None) -> dict[str, Any]:
+    """Settings values given on the command line (they override the settings file)."""
     changes: dict[str, Any] = {}
+    given: list[str] = []
     if temp is not None:
         changes["temp_range"] = parse_temperature_range(temp)
-        given.add("temp_range")
+        given.append("temp_range")
     if parts is not None:
         changes["parts_library"] = parts
     if budget is not None:
@@ -29,22 +26,27 @@ def options_to_settings(*, temp: str | None = None, parts: str | None = None,
             changes["default_budget"] = abs(parse_quantity(budget, "volt", what="--budget").value)
         except ValueFormatError as error:
             raise ParseError(str(error)) from None
-        given.add("default_budget")
+        given.append("default_budget")
     if samples is not None:
         changes["mc_samples"] = samples
     if seed is not None:
         changes["seed"] = seed
-    return replace(settings, **changes, given=tuple(sorted(given)))
+    if given:
+        changes["given"] = tuple(given)
+    return changes
+
+
+def options_to_settings(**options: Any) -> Settings:
+    overrides = options_to_overrides(**options)
+    given = overrides.pop("given", ())
+    return replace(Settings(), **overrides, given=tuple(given))
 
 
 def audit_files(paths: list[str], settings: Settings) -> dict[str, Any]:
-    """Audit each design file; the report shape of ``schemcheck audit --format json``."""
-    from .io.loader import load_netlist
-    from .io.partslib import load_parts_library
+    """Audit ``paths`` in this process with ``settings`` over any settings file, no cache."""
+    from dataclasses import asdict
 
-    library = load_parts_library(settings.parts_library) if settings.parts_library else {}
-    designs = []
-    for path in paths:
-        netlist = load_netlist(path)
-        designs.append(audit_netlist(netlist, settings, library).to_dict())
-    return {"tool": {"name": "schemcheck", "version": __version__}, "designs": designs}
+    from .batch import audit_paths
+
+    overrides = {k: v for k, v in asdict(settings).items() if v != getattr(Settings(), k)}
+    return audit_paths(paths, overrides=overrides, jobs=1, cache=None)

@@ -28,6 +28,8 @@ RULES = {
                           "library: its error is unknown.",
     "over-budget": "The worst-case output error over the temperature range exceeds the "
                    "stage's budget.",
+    "unreadable-design": "A design file could not be read: a malformed or unsupported file, "
+                         "or a missing child sheet; the rest of the batch is still audited.",
 }
 
 __all__ = ["RULES", "check_bias_path", "check_bias_resistor", "check_budget", "check_feedback",

@@ -54,3 +54,16 @@ def decode(data: bytes, name: str) -> str:
     if text.startswith("\ufeff"):
         text = text[1:]
     return text
+
+
+def write_text(path: str | os.PathLike[str], text: str) -> None:
+    """Write ``text`` as UTF-8, atomically (a reader never sees half a file)."""
+    name = os.fspath(path)
+    temporary = f"{name}.tmp-{os.getpid()}"
+    try:
+        with open(temporary, "w", encoding="utf-8", newline="\n") as handle:
+            handle.write(text)
+        os.replace(temporary, name)
+    except OSError as error:
+        raise ParseError(f"could not write the file: {error.strerror or error}",
+                         file=name) from None

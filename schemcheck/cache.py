@@ -1,0 +1,137 @@
+"""Results cache and store: an embedded SQLite database (WAL mode).
+
+Keyed by the content hash of every file of a design, the parts library, the settings
+and the tool version, so an unchanged design is read back instead of re-audited. Each
+design's result is committed whole, so a killed run leaves a readable database. A
+corrupt or foreign database file is reported, moved aside and rebuilt, never trusted.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import sqlite3
+import time
+from typing import Any
+
+from . import __version__
+from .errors import SchemcheckError
+
+APP = "schemcheck-results"
+SCHEMA = 1
+
+
+def default_path() -> str:
+    from platformdirs import user_cache_dir
+
+    return os.path.join(user_cache_dir("schemcheck", appauthor=False), "results.sqlite3")
+
+
+def file_digest(path: str) -> str:
+    digest = hashlib.sha256()
+    with open(path, "rb") as handle:
+        for block in iter(lambda: handle.read(1 << 20), b""):
+            digest.update(block)
+    return digest.hexdigest()
+
+
+def design_key(files: tuple[str, ...], settings: dict[str, Any], library: str | None) -> str:
+    """Content key of one audit: files (relative to the root's folder), settings,
+    parts library content and the tool version."""
+    base = os.path.dirname(files[0])
+    digest = hashlib.sha256()
+    digest.update(f"schemcheck {__version__}\n".encode())
+    digest.update(json.dumps(settings, sort_keys=True, default=str).encode())
+    for path in files:
+        digest.update(os.path.relpath(path, base).encode() + b"\0")
+        digest.update(file_digest(path).encode())
+    if library and os.path.isfile(library):
+        digest.update(b"library\0" + file_digest(library).encode())
+    return digest.hexdigest()
+
+
+class ResultCache:
+    """Audit results by key. ``warnings`` says what was rebuilt and why."""
+
+    def __init__(self, path: str | None = None) -> None:
+        self.path = path or default_path()
+        self.warnings: list[str] = []
+        os.makedirs(os.path.dirname(os.path.abspath(self.path)), exist_ok=True)
+        self.db = self._open()
+
+    def _open(self) -> sqlite3.Connection:
+        try:
+            db = self._connect()
+            self._check(db)
+            return db
+        except sqlite3.OperationalError as error:
+            if "locked" in str(error) or "busy" in str(error):
+                raise SchemcheckError(f"{self.path}: the results database is busy ({error}); "
+                                      "try again, or use --no-cache") from None
+            return self._rebuild(error)
+        except sqlite3.DatabaseError as error:
+            return self._rebuild(error)
+
+    def _rebuild(self, error: Exception) -> sqlite3.Connection:
+        aside = f"{self.path}.broken-{int(time.time())}"
+        self.warnings.append(f"{self.path}: the results database is unreadable or not ours "
+                             f"({error}); moved to {aside} and rebuilt")
+        for suffix in ("", "-wal", "-shm"):
+            if os.path.exists(self.path + suffix):
+                os.replace(self.path + suffix, aside + suffix)
+        db = self._connect()
+        self._check(db)
+        return db
+
+    def _connect(self) -> sqlite3.Connection:
+        db = sqlite3.connect(self.path, timeout=30, isolation_level=None,
+                             check_same_thread=False)
+        db.execute("PRAGMA journal_mode=WAL")
+        db.execute("PRAGMA synchronous=NORMAL")
+        return db
+
+    def _check(self, db: sqlite3.Connection) -> None:
+        """Create the tables in a new file, or make sure an existing file is ours.
+        One immediate transaction, so processes opening the file together agree."""
+        db.execute("BEGIN IMMEDIATE")
+        try:
+            tables = {row[0] for row in
+                      db.execute("SELECT name FROM sqlite_master WHERE type='table'")}
+            if not tables:
+                db.execute("CREATE TABLE meta (app TEXT NOT NULL, schema INTEGER NOT NULL)")
+                db.execute("INSERT INTO meta VALUES (?, ?)", (APP, SCHEMA))
+                db.execute("CREATE TABLE results (key TEXT PRIMARY KEY, root TEXT NOT NULL,"
+                           " created REAL NOT NULL, result TEXT NOT NULL)")
+                db.execute("CREATE TABLE audits (id TEXT PRIMARY KEY, key TEXT NOT NULL,"
+                           " name TEXT NOT NULL, created REAL NOT NULL, result TEXT NOT NULL)")
+                db.execute("CREATE INDEX audits_created ON audits(created)")
+            else:
+                row = (db.execute("SELECT app, schema FROM meta").fetchone()
+                       if "meta" in tables else None)
+                if row != (APP, SCHEMA) or not {"results", "audits"} <= tables:
+                    raise sqlite3.DatabaseError("not a schemcheck results database of this "
+                                                "version")
+                db.execute("SELECT count(*) FROM results").fetchone()
+            db.execute("COMMIT")
+        except BaseException:
+            db.execute("ROLLBACK")
+            raise
+
+    def get(self, key: str) -> dict[str, Any] | None:
+        try:
+            row = self.db.execute("SELECT result FROM results WHERE key = ?", (key,)).fetchone()
+            return json.loads(row[0]) if row else None
+        except (sqlite3.DatabaseError, ValueError) as error:
+            self.warnings.append(f"{self.path}: could not read a cached result ({error}); "
+                                 "re-auditing")
+            return None
+
+    def put(self, key: str, root: str, result: dict[str, Any]) -> None:
+        text = json.dumps(result, sort_keys=True)
+        with self.db:  # one transaction per design
+            self.db.execute("INSERT OR REPLACE INTO results VALUES (?, ?, ?, ?)",
+                            (key, root, time.time(), text))
+
+    def close(self) -> None:
+        self.db.close()

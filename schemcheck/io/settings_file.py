@@ -1,0 +1,108 @@
+"""Project settings: ``schemcheck.toml`` beside the design (a name of our own).
+
+    temperature_range = [-40, 85]     # °C
+    default_budget = "5mV"            # stages without a DC_Budget field
+    default_tolerance = "1%"          # resistors without a Tolerance field
+    parts_library = "parts.toml"      # relative to this file
+    rules_off = ["missing-parameters"]
+    monte_carlo_samples = 10000
+    seed = 1
+    [source_resistance]               # nets driven from outside the design
+    BRIDGE = "350"
+
+Unknown keys are an error that names the key. Command-line options override the file.
+"""
+
+from __future__ import annotations
+
+import os
+import tomllib
+from dataclasses import replace
+from typing import Any
+
+from ..checks import RULES
+from ..errors import ParseError
+from ..settings import Settings
+from ..units import ValueFormatError, parse_quantity, parse_resistance, parse_tolerance
+from .files import read_text
+
+SETTINGS_NAME = "schemcheck.toml"
+_KEYS = ("temperature_range", "default_budget", "default_tolerance", "parts_library",
+         "rules_off", "monte_carlo_samples", "seed", "source_resistance")
+
+
+def find_settings(design_root: str) -> str | None:
+    """The settings file beside ``design_root``, if there is one."""
+    candidate = os.path.join(os.path.dirname(os.path.abspath(design_root)), SETTINGS_NAME)
+    return candidate if os.path.isfile(candidate) else None
+
+
+def load_settings(path: str, base: Settings | None = None) -> Settings:
+    """``base`` (or the defaults) with the values of the settings file at ``path``."""
+    text = read_text(path)
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as error:
+        raise ParseError(f"expected a TOML settings file: {error}", file=path) from None
+    return apply_settings(data, path, base or Settings())
+
+
+def apply_settings(data: dict[str, Any], path: str, base: Settings) -> Settings:
+    def bad(key: str, expected: str) -> ParseError:
+        return ParseError(f"key {key!r}: expected {expected}, found {data[key]!r}", file=path)
+
+    unknown = sorted(set(data) - set(_KEYS))
+    if unknown:
+        raise ParseError(f"unknown key {unknown[0]!r} (expected one of {', '.join(_KEYS)})",
+                         file=path)
+    changes: dict[str, Any] = {}
+    given = set(base.given)
+    if "temperature_range" in data:
+        value = data["temperature_range"]
+        if (not isinstance(value, list) or len(value) != 2
+                or not all(isinstance(v, (int, float)) for v in value) or value[0] > value[1]):
+            raise bad("temperature_range", "[MIN, MAX] in °C with MIN <= MAX")
+        changes["temp_range"] = (float(value[0]), float(value[1]))
+        given.add("temp_range")
+    try:
+        if "default_budget" in data:
+            changes["default_budget"] = abs(parse_quantity(str(data["default_budget"]), "volt",
+                                                           what="default_budget").value)
+            given.add("default_budget")
+        if "default_tolerance" in data:
+            changes["default_tolerance"] = parse_tolerance(str(data["default_tolerance"]),
+                                                           "default_tolerance")
+            given.add("default_tolerance")
+        if "source_resistance" in data:
+            table = data["source_resistance"]
+            if not isinstance(table, dict):
+                raise bad("source_resistance", "a table of NET = \"ohms\"")
+            resistances = {}
+            for net, value in table.items():
+                ohms = parse_resistance(str(value), f"source_resistance.{net}")
+                if ohms is None or ohms < 0:
+                    raise bad("source_resistance", "resistances in ohms")
+                resistances[str(net)] = ohms
+            changes["source_resistance"] = resistances
+    except ValueFormatError as error:
+        raise ParseError(str(error), file=path) from None
+    if "parts_library" in data:
+        if not isinstance(data["parts_library"], str):
+            raise bad("parts_library", "a file path")
+        changes["parts_library"] = os.path.join(os.path.dirname(os.path.abspath(path)),
+                                                data["parts_library"])
+    if "rules_off" in data:
+        rules = data["rules_off"]
+        if not isinstance(rules, list) or any(r not in RULES for r in rules):
+            raise bad("rules_off", f"a list of rule ids ({', '.join(RULES)})")
+        changes["disabled_rules"] = tuple(rules)
+    if "monte_carlo_samples" in data:
+        value = data["monte_carlo_samples"]
+        if not isinstance(value, int) or not 0 <= value <= 1_000_000:
+            raise bad("monte_carlo_samples", "a whole number from 0 to 1000000")
+        changes["mc_samples"] = value
+    if "seed" in data:
+        if not isinstance(data["seed"], int):
+            raise bad("seed", "a whole number")
+        changes["seed"] = data["seed"]
+    return replace(base, **changes, given=tuple(sorted(given)))
