@@ -183,5 +183,38 @@ def _render(report: dict[str, Any], fmt: str, output: str | None) -> str:
     return json.dumps(sarif(report, base), indent=2, ensure_ascii=False)
 
 
+@main.command()
+@click.argument("csv_file", type=click.Path(dir_okay=False, path_type=str))
+@_format_option(("json", "text"), "text")
+@click.option("--parts", "parts", type=click.Path(dir_okay=False, path_type=str), default=None,
+              help="Parts library (TOML) to write the measured entry into.")
+@click.option("--part", "part", default=None, help="Entry name in the parts library.")
+@click.option("--dry-run", "dry_run", is_flag=True, help="Show the library change; write nothing.")
+@click.option("--skip-bad-rows", "skip_bad_rows", is_flag=True,
+              help="Leave out rows that fail the checks (and list them) instead of refusing.")
+@_reports_errors
+def bench(csv_file: str, fmt: str, parts: str | None, part: str | None, dry_run: bool,
+          skip_bad_rows: bool) -> None:
+    """Turn test-loop measurements into op-amp parameters (Vos, Ib+, Ib-, Ib, Ios, drift).
+
+    CSV columns: sample, temp_c, v1, v2, v3, optional v4, gain, rs, resolution, optional
+    rail. Exit status: 0 success, 1 rows failed the checks, 2 unreadable file.
+
+    \b
+    Example:
+      schemcheck bench loop.csv --parts opamps.toml --part LX-B27 --dry-run
+    """
+    from .bench_run import bench_text, characterise_file
+
+    if (parts is None) != (part is None):
+        click.echo("Error: --parts and --part go together: name the library and the entry",
+                   err=True)
+        sys.exit(EXIT_BAD_INPUT)
+    report = characterise_file(csv_file, parts=parts, part=part, dry_run=dry_run,
+                               skip_bad_rows=skip_bad_rows)
+    _emit(_json(report) if fmt == "json" else bench_text(report))
+    sys.exit(EXIT_FINDINGS if report["problems"] else 0)
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()
