@@ -40,6 +40,9 @@ def design_key(files: tuple[str, ...], settings: dict[str, Any], library: str | 
     """Content key of one audit: files (relative to the root's folder), settings,
     parts library content and the tool version."""
     base = os.path.dirname(files[0])
+    settings = dict(settings)
+    if library:  # its content is hashed below; where it lies only matters beside the design
+        settings["parts_library"] = os.path.relpath(library, base)
     digest = hashlib.sha256()
     digest.update(f"schemcheck {__version__}\n".encode())
     digest.update(json.dumps(settings, sort_keys=True, default=str).encode())

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import functools
+import os
 import sys
 from typing import Any, Callable
 
@@ -165,7 +166,9 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
 
 def _render(report: dict[str, Any], fmt: str, output: str | None) -> str:
     if fmt == "json":
-        return _json(report)
+        from api.schemas import ReportSchema  # the service's definition of the shape
+
+        return _json(ReportSchema().dump(report))
     if fmt == "text":
         from .report.audit_text import audit_text
 
@@ -214,6 +217,62 @@ def bench(csv_file: str, fmt: str, parts: str | None, part: str | None, dry_run:
                                skip_bad_rows=skip_bad_rows)
     _emit(_json(report) if fmt == "json" else bench_text(report))
     sys.exit(EXIT_FINDINGS if report["problems"] else 0)
+
+
+_LOOPBACK = ("127.0.0.1", "localhost", "::1")
+
+
+@main.command()
+@click.option("--host", default="127.0.0.1", show_default=True,
+              help="Address to listen on. Anything but loopback needs --token.")
+@click.option("--port", type=click.IntRange(0, 65535), default=8765, show_default=True)
+@click.option("--token", envvar="SCHEMCHECK_TOKEN", default=None,
+              help="Bearer token clients must send (or set SCHEMCHECK_TOKEN).")
+@click.option("--allow", "allow", multiple=True, type=click.Path(file_okay=False, path_type=str),
+              help="A folder JSON 'path' submissions may name (repeatable).")
+@click.option("--store", "store", type=click.Path(dir_okay=False, path_type=str), default=None,
+              help="Results database (default: the CLI's cache in the user cache folder).")
+@click.option("--parts", "parts", type=click.Path(dir_okay=False, path_type=str), default=None,
+              help="Parts library for designs without a settings file naming one.")
+@click.option("--samples", "samples", type=click.IntRange(0, 1_000_000), default=None,
+              help="Monte Carlo samples per network (default 10000).")
+@click.option("--timeout", "timeout", type=click.FloatRange(1, 3600), default=120.0,
+              show_default=True, help="Time limit of one audit, seconds.")
+@click.option("--max-upload", "max_upload", type=click.IntRange(1, 1024), default=32,
+              show_default=True, help="Largest upload, MB (413 beyond).")
+@click.option("--threads", type=click.IntRange(1, 64), default=8, show_default=True,
+              help="Server threads.")
+@_reports_errors
+def serve(host: str, port: int, token: str | None, allow: tuple[str, ...], store: str | None,
+          parts: str | None, samples: int | None, timeout: float, max_upload: int,
+          threads: int) -> None:
+    """Run the local HTTP service that editor scripts query (waitress).
+
+    \b
+    Example:
+      schemcheck serve --port 8765 --allow ~/designs --parts ~/designs/opamps.toml
+    """
+    if host not in _LOOPBACK and not token:
+        click.echo(f"Error: refusing to listen on {host}: any address but loopback needs a "
+                   "token (--token or SCHEMCHECK_TOKEN) that clients send as a bearer token",
+                   err=True)
+        sys.exit(EXIT_BAD_INPUT)
+    import waitress
+
+    from api import create_app
+
+    overrides: dict[str, Any] = {}
+    if parts:
+        overrides["parts_library"] = os.path.abspath(parts)
+    if samples is not None:
+        overrides["mc_samples"] = samples
+    app = create_app({"STORE_PATH": store, "TOKEN": token, "AUDIT_TIMEOUT": timeout,
+                      "ALLOWED_FOLDERS": [os.path.abspath(a) for a in allow],
+                      "MAX_CONTENT_LENGTH": max_upload * 1024 * 1024,
+                      "AUDIT_OVERRIDES": overrides})
+    click.echo(f"schemcheck {__version__} serving on http://{host}:{port}/ "
+               "(OpenAPI document at /openapi.json)", err=True)
+    waitress.serve(app, host=host, port=port, threads=threads, ident="schemcheck")
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -1,0 +1,81 @@
+"""The OpenAPI 3 document, generated from the marshmallow schemas (apispec)."""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+from apispec import APISpec
+from apispec.ext.marshmallow import MarshmallowPlugin
+
+from schemcheck import __version__
+
+from . import schemas
+
+PROBLEM = {"application/problem+json": {"schema": "Problem"}}
+
+
+def _problems(*codes: int) -> dict:
+    text = {400: "Malformed request", 401: "Missing or wrong bearer token", 403: "Path outside "
+            "the allowed folders", 404: "Not found", 413: "Upload too large", 415: "Unsupported "
+            "content type", 422: "Unreadable design or invalid request", 503: "Busy or timed out"}
+    return {str(c): {"description": text[c], "content": PROBLEM} for c in codes}
+
+
+@lru_cache(maxsize=1)
+def build_spec() -> APISpec:
+    spec = APISpec(title="schemcheck", version=__version__, openapi_version="3.0.3",
+                   plugins=[MarshmallowPlugin()],
+                   info={"description": "DC error budgets of op-amp stages, audited from KiCad "
+                                        "schematics, for editor scripts on the same machine."})
+    for name in ("Finding", "Stage", "Design", "Report", "PathRequest", "Audit", "AuditSummary",
+                 "AuditList", "Health", "Parts", "Problem"):
+        spec.components.schema(name, schema=getattr(schemas, f"{name}Schema"))
+    spec.components.security_scheme("bearer", {"type": "http", "scheme": "bearer"})
+    audit = {"application/json": {"schema": "Audit"}}
+    audit_id = {"name": "audit_id", "in": "path", "required": True,
+                "schema": {"type": "string", "maxLength": 64}}
+    spec.path(path="/v1/audits", operations={
+        "post": {"summary": "Audit a design: upload its files, or name a path under an allowed "
+                            "folder",
+                 "requestBody": {"required": True, "content": {
+                     "multipart/form-data": {"schema": {"type": "object", "required": ["files"],
+                         "properties": {"files": {"type": "array", "minItems": 1, "items": {
+                             "type": "string", "format": "binary"}}}}},
+                     "application/json": {"schema": "PathRequest"}}},
+                 "responses": {"201": {"description": "Audited (or answered from the store)",
+                                       "content": audit},
+                               **_problems(400, 401, 403, 404, 413, 415, 422, 503)}},
+        "get": {"summary": "Recent audits",
+                "parameters": [{"name": "limit", "in": "query", "required": False,
+                                "schema": {"type": "integer", "minimum": 1, "maximum": 500}}],
+                "responses": {"200": {"description": "Recent audits, newest first",
+                                      "content": {"application/json": {"schema": "AuditList"}}},
+                              **_problems(401, 422)}}})
+    spec.path(path="/v1/audits/{audit_id}", operations={"get": {
+        "summary": "One audit", "parameters": [audit_id],
+        "responses": {"200": {"description": "The audit", "content": audit},
+                      **_problems(401, 404)}}})
+    spec.path(path="/v1/audits/{audit_id}/checklist", operations={"get": {
+        "summary": "The pull-request checklist of one audit", "parameters": [audit_id],
+        "responses": {"200": {"description": "Markdown",
+                              "content": {"text/markdown": {"schema": {"type": "string"}}}},
+                      **_problems(401, 404)}}})
+    spec.path(path="/v1/audits/{audit_id}/sarif", operations={"get": {
+        "summary": "The SARIF 2.1.0 log of one audit", "parameters": [audit_id],
+        "responses": {"200": {"description": "SARIF",
+                              "content": {"application/sarif+json": {"schema": {
+                                  "type": "object"}}}},
+                      **_problems(401, 404)}}})
+    spec.path(path="/v1/health", operations={"get": {
+        "summary": "Is the service up", "responses": {"200": {
+            "description": "Up", "content": {"application/json": {"schema": "Health"}}},
+            **_problems(401)}}})
+    spec.path(path="/v1/parts", operations={"get": {
+        "summary": "The parts library in use", "responses": {"200": {
+            "description": "Parts", "content": {"application/json": {"schema": "Parts"}}},
+            **_problems(401, 422)}}})
+    spec.path(path="/openapi.json", operations={"get": {
+        "summary": "This document", "responses": {"200": {
+            "description": "OpenAPI 3", "content": {"application/json": {"schema": {
+                "type": "object"}}}}, **_problems(401)}}})
+    return spec

@@ -1,0 +1,68 @@
+"""Audit records kept in the same SQLite database as the CLI's results cache, so a
+restart loses nothing and an identical re-submission is answered from the store."""
+
+from __future__ import annotations
+
+import json
+import threading
+import time
+import uuid
+from typing import Any
+
+from schemcheck.cache import ResultCache
+
+
+class AuditStore:
+    def __init__(self, path: str | None) -> None:
+        self.cache = ResultCache(path)
+        self.lock = threading.Lock()  # one connection, shared by the server's threads
+
+    @property
+    def warnings(self) -> list[str]:
+        return self.cache.warnings
+
+    def find_by_key(self, key: str) -> dict[str, Any] | None:
+        with self.lock:
+            row = self.cache.db.execute(
+                "SELECT id, name, created, result FROM audits WHERE key = ? "
+                "ORDER BY created DESC LIMIT 1", (key,)).fetchone()
+        return self._record(row) if row else None
+
+    def get(self, audit_id: str) -> dict[str, Any] | None:
+        with self.lock:
+            row = self.cache.db.execute("SELECT id, name, created, result FROM audits WHERE id = ?",
+                                        (audit_id,)).fetchone()
+        return self._record(row) if row else None
+
+    def add(self, key: str, name: str, result: dict[str, Any]) -> dict[str, Any]:
+        record = {"id": uuid.uuid4().hex, "name": name, "created": time.time(),
+                  "result": result}
+        with self.lock, self.cache.db:
+            self.cache.db.execute("INSERT INTO audits VALUES (?, ?, ?, ?, ?)",
+                                  (record["id"], key, name, record["created"],
+                                   json.dumps(result, sort_keys=True)))
+        return record
+
+    def recent(self, limit: int) -> list[dict[str, Any]]:
+        with self.lock:
+            rows = self.cache.db.execute(
+                "SELECT id, name, created, result FROM audits ORDER BY created DESC LIMIT ?",
+                (limit,)).fetchall()
+        out = []
+        for row in rows:
+            record = self._record(row)
+            designs = record["result"]["designs"]
+            out.append({"id": record["id"], "name": record["name"], "created": record["created"],
+                        "designs": len(designs),
+                        "errors": sum(f["severity"] == "error" for d in designs
+                                      for f in d["findings"]),
+                        "warnings": sum(f["severity"] == "warning" for d in designs
+                                        for f in d["findings"])})
+        return out
+
+    @staticmethod
+    def _record(row) -> dict[str, Any]:
+        return {"id": row[0], "name": row[1], "created": row[2], "result": json.loads(row[3])}
+
+    def close(self) -> None:
+        self.cache.close()
