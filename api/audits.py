@@ -21,6 +21,10 @@ from .problems import Problem
 from .schemas import AuditListSchema, AuditSchema, ListQuerySchema, PathRequestSchema
 
 bp = Blueprint("audits", __name__)
+_AUDIT = AuditSchema()  # built once: a schema instance costs more than a small dump
+_LIST = AuditListSchema()
+_PATH = PathRequestSchema()
+_QUERY = ListQuerySchema()
 
 
 def _submission_key(paths: list[str], overrides: dict) -> str:
@@ -52,7 +56,7 @@ def _store():
 
 
 def _answer(record: dict, cached: bool, status: int = 201) -> tuple[dict, int]:
-    return AuditSchema().dump({**record, "cached": cached}), status
+    return _AUDIT.dump({**record, "cached": cached}), status
 
 
 def _audit(paths: list[str], name: str, strip: str | None) -> tuple[dict, int]:
@@ -94,7 +98,7 @@ def create_audit():
         body = request.get_json(silent=True)
         if not isinstance(body, dict):
             raise Problem(400, "Bad request", "expected a JSON object {\"path\": \"...\"}")
-        path = PathRequestSchema().load(body)["path"]
+        path = _PATH.load(body)["path"]
         resolved = os.path.realpath(path)
         allowed = [os.path.realpath(f) for f in current_app.config["ALLOWED_FOLDERS"]]
         if not any(os.path.commonpath([resolved, a]) == a for a in allowed):
@@ -109,8 +113,8 @@ def create_audit():
 
 @bp.get("/v1/audits")
 def list_audits():
-    query = ListQuerySchema().load(request.args.to_dict())
-    return AuditListSchema().dump({"audits": _store().recent(query["limit"])})
+    query = _QUERY.load(request.args.to_dict())
+    return _LIST.dump({"audits": _store().recent(query["limit"])})
 
 
 def _record(audit_id: str) -> dict:

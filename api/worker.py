@@ -1,55 +1,78 @@
-"""Run one audit in a separate process with a time limit, a bounded number at once."""
+"""Run audits in a small pool of warm worker processes: a time limit per audit, a bounded
+number at once.
+
+The workers start from a forkserver that has already imported and exercised the engine
+(:mod:`api.warm`), and they stay up between audits, so an audit costs what it costs in
+the CLI. An audit over its time limit is stopped by replacing the pool (its workers are
+killed); an audit that was running beside it is answered 503 and can be retried.
+"""
 
 from __future__ import annotations
 
 import multiprocessing
 import threading
+from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures import TimeoutError as FutureTimeout
+from concurrent.futures.process import BrokenProcessPool
 from typing import Any
 
 from .problems import Problem
 
 _CONTEXT = multiprocessing.get_context("forkserver")
-_CONTEXT.set_forkserver_preload(["schemcheck.batch", "schemcheck.audit", "numpy"])
+_CONTEXT.set_forkserver_preload(["schemcheck.batch", "api.warm"])
 
 
-def _run(connection, paths: list[str], overrides: dict[str, Any]) -> None:
+def _run(paths: list[str], overrides: dict[str, Any]) -> dict[str, Any]:
     from schemcheck.batch import audit_paths
 
-    try:
-        connection.send(("ok", audit_paths(paths, overrides=overrides, jobs=1, cache=None)))
-    except BaseException as error:  # noqa: BLE001 - reported to the parent, never lost
-        connection.send(("error", f"{type(error).__name__}: {error}"))
-    finally:
-        connection.close()
+    return audit_paths(paths, overrides=overrides, jobs=1, cache=None)
 
 
 class AuditRunner:
     def __init__(self, max_concurrent: int, timeout: float, queue_wait: float = 30.0) -> None:
+        self.workers = max_concurrent
         self.slots = threading.BoundedSemaphore(max_concurrent)
         self.timeout = timeout
         self.queue_wait = queue_wait
+        self.lock = threading.Lock()
+        self.pool: ProcessPoolExecutor | None = None
+
+    def _pool(self) -> ProcessPoolExecutor:
+        with self.lock:
+            if self.pool is None:
+                self.pool = ProcessPoolExecutor(self.workers, mp_context=_CONTEXT)
+            return self.pool
+
+    def _replace(self, broken: ProcessPoolExecutor) -> None:
+        with self.lock:
+            if self.pool is broken:
+                self.pool = None
+        for process in list(getattr(broken, "_processes", {}).values()):
+            process.kill()
+        broken.shutdown(wait=False, cancel_futures=True)
 
     def run(self, paths: list[str], overrides: dict[str, Any]) -> dict[str, Any]:
         if not self.slots.acquire(timeout=self.queue_wait):
             raise Problem(503, "Busy", f"every audit slot stayed busy for {self.queue_wait:g} s; "
-                                       "try again shortly", )
+                                       "try again shortly")
         try:
-            parent, child = _CONTEXT.Pipe(duplex=False)
-            process = _CONTEXT.Process(target=_run, args=(child, paths, overrides), daemon=True)
-            process.start()
-            child.close()
-            if not parent.poll(self.timeout):
-                process.kill()
-                process.join()
-                raise Problem(503, "Audit timed out", f"the audit took longer than "
-                                                      f"{self.timeout:g} s and was stopped")
+            pool = self._pool()
+            future = pool.submit(_run, paths, overrides)
             try:
-                status, payload = parent.recv()
-            except EOFError:
-                status, payload = "error", "the audit process ended without an answer"
-            process.join()
-            if status != "ok":
-                raise Problem(500, "Internal error", payload)
-            return payload
+                return future.result(timeout=self.timeout)
+            except FutureTimeout:
+                self._replace(pool)
+                raise Problem(503, "Audit timed out", f"the audit took longer than "
+                                                      f"{self.timeout:g} s and was stopped") from None
+            except BrokenProcessPool:
+                self._replace(pool)
+                raise Problem(503, "Workers restarted", "the audit workers were restarted while "
+                                                        "this audit ran; try again") from None
         finally:
             self.slots.release()
+
+    def close(self) -> None:
+        with self.lock:
+            pool, self.pool = self.pool, None
+        if pool is not None:
+            pool.shutdown(wait=False, cancel_futures=True)

@@ -1,0 +1,167 @@
+#!/usr/bin/env python3
+"""Editor action for schemcheck: audit the schematic (or exported netlist) you are
+editing and write its DC error checklist next to it.
+
+Standard library only, so it runs in the schematic editor's own Python. It posts the
+design (the root sheet, its child sheets, and a schemcheck.toml and the parts library
+it names, when present) to a running ``schemcheck serve``; when no service answers it
+runs the audit in-process (if the schemcheck package is importable) or through the
+``schemcheck`` command.
+
+    python3 schemcheck_action.py board.kicad_sch [--url http://127.0.0.1:8765] [--token T]
+
+Writes ``board.dc-checklist.md`` beside the design and prints a one-screen summary.
+Exit status: 0 no error finding, 1 error findings, 2 the audit could not be run.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import re
+import subprocess
+import sys
+import tomllib
+import urllib.error
+import urllib.request
+import uuid
+
+_SHEETFILE = re.compile(rb'\(property\s+"Sheet ?file"\s+"((?:[^"\\]|\\.)*)"')
+
+
+def design_files(root: str) -> list[str]:
+    """The root, its child sheets (recursively), and the settings and parts library."""
+    root = os.path.abspath(root)
+    base = os.path.dirname(root)
+    files, pending = [root], [root]
+    while pending:
+        current = pending.pop()
+        try:
+            with open(current, "rb") as handle:
+                data = handle.read()
+        except OSError:
+            continue
+        for match in _SHEETFILE.finditer(data):
+            name = match.group(1).decode("utf-8", "replace").replace("\\\\", "/")
+            child = os.path.normpath(os.path.join(os.path.dirname(current), name))
+            if child not in files and os.path.isfile(child):
+                files.append(child)
+                pending.append(child)
+    settings = os.path.join(base, "schemcheck.toml")
+    if os.path.isfile(settings):
+        files.append(settings)
+        try:
+            with open(settings, "rb") as handle:
+                library = tomllib.load(handle).get("parts_library")
+        except (OSError, tomllib.TOMLDecodeError):
+            library = None
+        if isinstance(library, str):
+            path = os.path.normpath(os.path.join(base, library))
+            if os.path.isfile(path) and path.startswith(base + os.sep):
+                files.append(path)
+    return files
+
+
+def encode_multipart(files: list[str], base: str) -> tuple[bytes, str]:
+    """multipart/form-data with every file in the field 'files', named relative to base."""
+    boundary = uuid.uuid4().hex
+    parts = []
+    for path in files:
+        name = os.path.relpath(path, base).replace(os.sep, "/")
+        with open(path, "rb") as handle:
+            content = handle.read()
+        parts.append(
+            f'--{boundary}\r\nContent-Disposition: form-data; name="files"; filename="{name}"\r\n'
+            f"Content-Type: application/octet-stream\r\n\r\n".encode() + content + b"\r\n")
+    return b"".join(parts) + f"--{boundary}--\r\n".encode(), f"multipart/form-data; boundary={boundary}"
+
+
+def request(url: str, token: str | None, data: bytes | None = None,
+            content_type: str | None = None, timeout: float = 300.0) -> tuple[int, bytes]:
+    req = urllib.request.Request(url, data=data, method="POST" if data is not None else "GET")
+    if content_type:
+        req.add_header("Content-Type", content_type)
+    if token:
+        req.add_header("Authorization", f"Bearer {token}")
+    try:
+        with urllib.request.urlopen(req, timeout=timeout) as response:
+            return response.status, response.read()
+    except urllib.error.HTTPError as error:
+        return error.code, error.read()
+
+
+def via_service(design: str, url: str, token: str | None) -> tuple[dict, str]:
+    """(report, checklist) from the service; raises OSError when it does not answer."""
+    files = design_files(design)
+    body, content_type = encode_multipart(files, os.path.dirname(os.path.abspath(design)))
+    status, payload = request(f"{url}/v1/audits", token, body, content_type)
+    answer = json.loads(payload.decode("utf-8"))
+    if status != 201:
+        raise RuntimeError(f"the service refused the design ({status} {answer.get('title')}): "
+                           f"{answer.get('detail')}")
+    _, checklist = request(f"{url}/v1/audits/{answer['id']}/checklist", token)
+    return answer["result"], checklist.decode("utf-8")
+
+
+def in_process(design: str) -> tuple[dict, str]:
+    try:
+        from schemcheck.batch import audit_paths
+        from schemcheck.report.markdown import checklist
+    except ImportError:
+        out = subprocess.run(["schemcheck", "audit", design, "--format", "json"],
+                             capture_output=True, text=True)
+        if out.returncode == 2 or not out.stdout:
+            raise RuntimeError(out.stderr.strip() or "schemcheck could not run")
+        report = json.loads(out.stdout)
+        md = subprocess.run(["schemcheck", "audit", design, "--format", "markdown"],
+                            capture_output=True, text=True).stdout
+        return report, md
+    report = audit_paths([design], jobs=1)
+    return report, checklist(report)
+
+
+def summary(report: dict) -> str:
+    lines = []
+    for design in report["designs"]:
+        lines.append(f"{design['file']}: {len(design['stages'])} op-amp stages")
+        for s in design["stages"]:
+            worst = s.get("worst_case_over_temp_v")
+            shown = f"{worst * 1e3:.3g} mV" if worst is not None else "unknown"
+            verdict = ("FAIL" if s.get("within_budget") is False else
+                       "pass" if s.get("within_budget") else s.get("status", ""))
+            lines.append(f"  {s['ref']}/{s['unit']:<3} {s['topology']:<15} worst {shown:<10} "
+                         f"{verdict}")
+        for f in design["findings"]:
+            lines.append(f"  {f['severity'].upper():<7} {f['rule']}: {f['ref']} {f['message'][:90]}")
+    return "\n".join(lines[:40])
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    parser.add_argument("design")
+    parser.add_argument("--url", default=os.environ.get("SCHEMCHECK_URL", "http://127.0.0.1:8765"))
+    parser.add_argument("--token", default=os.environ.get("SCHEMCHECK_TOKEN"))
+    args = parser.parse_args(argv)
+    try:
+        try:
+            report, checklist = via_service(args.design, args.url.rstrip("/"), args.token)
+            where = "service"
+        except (OSError, urllib.error.URLError):
+            report, checklist = in_process(args.design)
+            where = "in-process"
+    except (RuntimeError, ValueError) as error:
+        print(f"schemcheck: {error}", file=sys.stderr)
+        return 2
+    stem = os.path.splitext(os.path.abspath(args.design))[0]
+    target = f"{stem}.dc-checklist.md"
+    with open(target, "w", encoding="utf-8") as handle:
+        handle.write(checklist)
+    print(summary(report))
+    print(f"checklist written to {target} ({where})")
+    errors = any(f["severity"] == "error" for d in report["designs"] for f in d["findings"])
+    return 1 if errors else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
