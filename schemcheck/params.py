@@ -15,7 +15,6 @@ Temperature model (``at_temperature``):
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
@@ -247,12 +246,3 @@ def at_temperature(params: OpampParams, temp_c: float, range_top_c: float) -> At
         _current_at(params.ib, params.ib_hot, t_hot, temp_c, fet),
         _current_at(params.ios, params.ios_hot, t_hot, temp_c, fet),
     )
-
-
-def doubling_factor(temp_c: float) -> float:
-    """FET bias-current growth from 25 °C (common practice: x2 per 10 °C)."""
-    return 2.0 ** ((temp_c - 25.0) / FET_DOUBLING_C) if temp_c > 25 else 1.0
-
-
-def is_finite(value: float | None) -> bool:
-    return value is not None and math.isfinite(value)

@@ -141,11 +141,7 @@ def _text(node: list[Any], i: int, path: tuple[int, ...], what: str) -> str:
     if len(node) <= i or isinstance(node[i], list):
         raise _Bad(path, f"expected a text value for {what} in '({node[0]} ...)'")
     value = node[i]
-    return value if value.__class__ is str else _format_number(value)
-
-
-def _format_number(value: int | float) -> str:
-    return str(value)
+    return value if value.__class__ is str else str(value)
 
 
 def _yes(node: list[Any]) -> bool:
@@ -261,15 +257,6 @@ def _label(item: list[Any], path: tuple[int, ...]) -> Label:
             x, y, _ = _at(sub, path + (j,))
             return Label(item[0], name, _key(x, y))
     raise _Bad(path, f"expected '(at X Y A)' in '({item[0]} ...)'")
-
-
-def _properties(item: list[Any], path: tuple[int, ...]) -> dict[str, str]:
-    props: dict[str, str] = {}
-    for j, sub in enumerate(item):
-        if sub.__class__ is list and sub and sub[0] == "property":
-            key = _text(sub, 1, path + (j,), "the property name")
-            props[key] = _text(sub, 2, path + (j,), f"the value of property {key!r}")
-    return props
 
 
 def _unit_of(name: str) -> tuple[int, int]:
