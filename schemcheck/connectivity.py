@@ -205,7 +205,6 @@ def instances(design: Design) -> list[SheetInstance]:
     """Every sheet instance, root first, depth first, in file order."""
     out = [SheetInstance(design.root, "/", (), None, None)]
     stack = [0]
-    seen_depth = 0
     while stack:
         index = stack.pop()
         inst = out[index]
@@ -216,7 +215,6 @@ def instances(design: Design) -> list[SheetInstance]:
             if target is None or target not in design.sheets:
                 continue
             if len(inst.uuids) >= 64:  # deeper than any real design: a loop
-                seen_depth += 1
                 continue
             children.append(SheetInstance(
                 target, f"{inst.names}{symbol.name}/", inst.uuids + (symbol.uuid,), index,

@@ -130,3 +130,45 @@ def test_json_shape(rules):
     assert {k: part[k] for k in ("ref", "value", "lib_id", "sheet")} == {
         "ref": "R13", "value": "2k2", "lib_id": "Device:R", "sheet": "/"}
     assert part["fields"]["Value"] == "2k2"
+
+
+BODY_STYLE = """(kicad_sch (version 20250114) (generator "eeschema") (uuid "aaaa")
+  (lib_symbols
+    (symbol "T:Gate"
+      (symbol "Gate_1_1" (pin input line (at 0 0 0) (length 2.54) (name "A") (number "1")))
+      (symbol "Gate_1_2" (pin input line (at 5.08 0 0) (length 2.54) (name "A") (number "1")))))
+  (symbol (lib_id "T:Gate") (at 100 100 0) (unit 1) (convert 2) (exclude_from_sim yes)
+    (uuid "s1") (property "Reference" "G1") (property "Value" "x")
+    (instances (project "p" (path "/aaaa" (reference "G1") (unit 1)))))
+  (label "ALT" (at 105.08 100 0))
+  (label "NORMAL" (at 100 100 0)))
+"""
+
+
+def test_body_style_selects_the_de_morgan_pins():
+    # KiCad file format: a library sub-symbol "NAME_UNIT_STYLE"; body style 2 is the
+    # alternate (De Morgan) drawing, chosen by the placed symbol's (convert 2).
+    from schemcheck.connectivity import build_netlist
+    from schemcheck.io.design import Design
+    from schemcheck.io.kicad_sch import read_sheet
+
+    netlist = build_netlist(Design(root="k", sheets={"k": read_sheet(BODY_STYLE, "b.kicad_sch")}))
+    assert nets_by_name(netlist) == {"/ALT": ["G1.1"]}
+    g1 = netlist.parts[0]
+    assert g1.body_style == 2 and g1.exclude_from_sim
+
+
+def test_sheet_level_dnp_makes_its_parts_absent(tmp_path):
+    from .synth import Sheet
+
+    top = Sheet(project="dnp")
+    child = Sheet(project="dnp", seed=3)
+    r = child.place("Device:R", "R1", "1k", 50.8, 50.8)
+    child.label("A", r.pin("1"), kind="global_label")
+    sheet_uuid = top.sheet("Spare", "child.kicad_sch", 100, 50, [], dnp=True)
+    r.instances = [(f"/{top.uuid}/{sheet_uuid}", "R1", 1)]
+    (tmp_path / "top.kicad_sch").write_text(top.text(), encoding="utf-8")
+    (tmp_path / "child.kicad_sch").write_text(child.text(), encoding="utf-8")
+    netlist = load_netlist(tmp_path / "top.kicad_sch")
+    assert [p.dnp for p in netlist.parts] == [True]
+    assert netlist.nets == ()
