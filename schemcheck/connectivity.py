@@ -227,8 +227,8 @@ def instances(design: Design) -> list[SheetInstance]:
 
 
 def _reference(symbol: PlacedSymbol, inst: SheetInstance, design: Design,
-               root: SheetFile) -> tuple[str, int, str | None, bool]:
-    """(reference, unit, value override, matched) of ``symbol`` in sheet instance ``inst``."""
+               root: SheetFile) -> tuple[str, int, str | None]:
+    """(reference, unit, value override) of ``symbol`` in sheet instance ``inst``."""
     path7 = "/" + root.uuid + "".join("/" + u for u in inst.uuids)
     chosen = None
     for entry in symbol.instances:
@@ -236,16 +236,16 @@ def _reference(symbol: PlacedSymbol, inst: SheetInstance, design: Design,
             if chosen is None or entry.project == design.project_name:
                 chosen = entry
     if chosen is not None:
-        return chosen.reference, chosen.unit or symbol.unit, None, True
+        return chosen.reference, chosen.unit or symbol.unit, None
     if root.symbol_instances:
         path6 = "".join("/" + u for u in inst.uuids) + "/" + symbol.uuid
         found = root.symbol_instances.get(path6)
         if found is not None:
             reference, unit, value, _ = found
-            return reference, unit or symbol.unit, value or None, True
+            return reference, unit or symbol.unit, value or None
     if len(symbol.instances) == 1 and inst.parent is None:
-        return symbol.instances[0].reference, symbol.instances[0].unit or symbol.unit, None, True
-    return symbol.properties.get("Reference", "?"), symbol.unit, None, False
+        return symbol.instances[0].reference, symbol.instances[0].unit or symbol.unit, None
+    return symbol.properties.get("Reference", "?"), symbol.unit, None
 
 
 def build_netlist(design: Design) -> Netlist:
@@ -273,7 +273,7 @@ def build_netlist(design: Design) -> Netlist:
         if other != gid:
             uf.union(other, gid)
 
-    for number, inst in enumerate(insts):
+    for inst in insts:
         sheet = design.sheets[inst.file]
         graph = graphs[inst.file]
         off = inst.offset
@@ -337,19 +337,16 @@ def build_netlist(design: Design) -> Netlist:
             key = id(symbol)
             part = done_parts.get(key)
             if part is None:
-                part = done_parts[key] = _make_part(symbol, lib, inst, design, root, graph, warnings)
+                part = done_parts[key] = _make_part(symbol, lib, inst, design, root, graph)
                 if not part.ref.startswith("#"):
                     parts.append(part)
             if part.ref.startswith("#") or part.dnp:
                 continue
             pending_nodes.append((gid, Node(part.ref, placed.pin.number)))
-        for symbol in graph.unknown_symbols:
-            ref, unit, value, _ = _reference(symbol, inst, design, root)
-            if not ref.startswith("#"):
-                parts.append(Part(ref=ref, unit=unit, value=value or symbol.properties.get("Value", ""),
-                                  lib_id=symbol.lib_id, sheet=inst.names,
-                                  fields=dict(symbol.properties), dnp=symbol.dnp or inst.dnp,
-                                  source_file=sheet.path, uuid=symbol.uuid))
+        for symbol in graph.unknown_symbols:  # listed, with no pins
+            part = _make_part(symbol, None, inst, design, root, graph)
+            if not part.ref.startswith("#"):
+                parts.append(part)
 
     for gid, node in pending_nodes:
         node_sets.setdefault(uf.find(gid), set()).add(node)
@@ -378,16 +375,18 @@ def build_netlist(design: Design) -> Netlist:
                    version=str(root.version or ""), files=files, warnings=tuple(warnings))
 
 
-def _make_part(symbol: PlacedSymbol, lib: LibSymbol, inst: SheetInstance, design: Design,
-               root: SheetFile, graph: _LocalGraph, warnings: list[str]) -> Part:
-    ref, unit, value, _ = _reference(symbol, inst, design, root)
-    pins = graph.pins_of.get(id(symbol), ())
+def _make_part(symbol: PlacedSymbol, lib: LibSymbol | None, inst: SheetInstance,
+               design: Design, root: SheetFile, graph: _LocalGraph) -> Part:
+    """The Part of ``symbol`` in ``inst``; ``lib`` None when its library symbol is missing."""
+    ref, unit, value = _reference(symbol, inst, design, root)
     return Part(
         ref=ref, unit=unit, value=value or symbol.properties.get("Value", ""),
-        lib_id=symbol.lib_id, sheet=inst.names, fields=dict(symbol.properties), pins=pins,
-        dnp=symbol.dnp or inst.dnp, exclude_from_sim=symbol.exclude_from_sim or inst.exclude_from_sim,
-        in_bom=symbol.in_bom, body_style=symbol.body_style, unit_count=lib.unit_count,
-        description=lib.description, keywords=lib.keywords, is_power=lib.is_power,
+        lib_id=symbol.lib_id, sheet=inst.names, fields=dict(symbol.properties),
+        pins=graph.pins_of.get(id(symbol), ()), dnp=symbol.dnp or inst.dnp,
+        exclude_from_sim=symbol.exclude_from_sim or inst.exclude_from_sim,
+        in_bom=symbol.in_bom, body_style=symbol.body_style,
+        unit_count=lib.unit_count if lib else 1, description=lib.description if lib else "",
+        keywords=lib.keywords if lib else "", is_power=lib.is_power if lib else False,
         source_file=design.sheets[inst.file].path, uuid=symbol.uuid)
 
 

@@ -162,6 +162,23 @@ def _at(node: list[Any], path: tuple[int, ...]) -> tuple[float, float, float]:
     return x, y, angle
 
 
+def _lists(node: list[Any], path: tuple[int, ...], start: int = 1):
+    """(head, child list, tree path) of every non-empty list among ``node[start:]``."""
+    for j in range(start, len(node)):
+        sub = node[j]
+        if sub.__class__ is list and sub:
+            yield sub[0], sub, path + (j,)
+
+
+def _point(node: list[Any], path: tuple[int, ...], what: str) -> Point:
+    """The connection point ``(at X Y ...)`` of ``node``."""
+    for head, sub, where in _lists(node, path):
+        if head == "at":
+            x, y, _ = _at(sub, where)
+            return _key(x, y)
+    raise _Bad(path, f"expected '(at X Y)' in {what}")
+
+
 def read_sheet(text: str, file: str) -> SheetFile:
     """Parse ``text`` (the content of ``file``) into a :class:`SheetFile`.
 
@@ -193,33 +210,24 @@ def _read_tree(tree: list[Any], file: str) -> SheetFile:
     sheet = SheetFile(path=file, version=None, generator="", generator_version="", uuid="",
                       lib_symbols={}, symbols=[], wires=[], junctions=[], no_connects=[],
                       labels=[], sheets=[])
-    wires = sheet.wires
-    for index, item in enumerate(tree):
-        if item.__class__ is not list or not item:
-            continue
-        head = item[0]
-        path = (index,)
+    for head, item, path in _lists(tree, (), 0):
         if head == "symbol":
             sheet.symbols.append(_placed_symbol(item, path))
         elif head == "wire":
-            wires.append(_wire(item, path))
-        elif head == "junction" or head == "no_connect":
-            point = None
-            for j, sub in enumerate(item):
-                if sub.__class__ is list and sub and sub[0] == "at":
-                    x, y, _ = _at(sub, path + (j,))
-                    point = _key(x, y)
-            if point is None:
-                raise _Bad(path, f"expected '(at X Y)' in '({head} ...)'")
-            (sheet.junctions if head == "junction" else sheet.no_connects).append(point)
+            sheet.wires.append(_wire(item, path))
+        elif head == "junction":
+            sheet.junctions.append(_point(item, path, "'(junction ...)'"))
+        elif head == "no_connect":
+            sheet.no_connects.append(_point(item, path, "'(no_connect ...)'"))
         elif head in ("label", "global_label", "hierarchical_label"):
-            sheet.labels.append(_label(item, path))
+            name = _text(item, 1, path, "the label name")
+            sheet.labels.append(Label(head, name, _point(item, path, f"'({head} ...)'")))
         elif head == "sheet":
             sheet.sheets.append(_sheet_symbol(item, path))
         elif head == "lib_symbols":
-            for j, sub in enumerate(item[1:], start=1):
-                if sub.__class__ is list and sub and sub[0] == "symbol":
-                    lib = _lib_symbol(sub, path + (j,))
+            for sub_head, sub, where in _lists(item, path):
+                if sub_head == "symbol":
+                    lib = _lib_symbol(sub, where)
                     sheet.lib_symbols[lib.name] = lib
         elif head == "version":
             sheet.version = item[1] if len(item) > 1 and item[1].__class__ is int else None
@@ -237,26 +245,14 @@ def _read_tree(tree: list[Any], file: str) -> SheetFile:
 
 
 def _wire(item: list[Any], path: tuple[int, ...]) -> tuple[Point, Point]:
-    for j, sub in enumerate(item):
-        if sub.__class__ is list and sub and sub[0] == "pts":
-            points = []
-            for k, xy in enumerate(sub[1:], start=1):
-                if xy.__class__ is list and xy and xy[0] == "xy":
-                    where = path + (j, k)
-                    points.append(_key(_number(xy, 1, where, "X"), _number(xy, 2, where, "Y")))
+    for head, sub, where in _lists(item, path):
+        if head == "pts":
+            points = [_key(_number(xy, 1, at, "X"), _number(xy, 2, at, "Y"))
+                      for xy_head, xy, at in _lists(sub, where) if xy_head == "xy"]
             if len(points) != 2:
-                raise _Bad(path + (j,), "expected two points '(xy X Y)' in a wire's '(pts ...)'")
+                raise _Bad(where, "expected two points '(xy X Y)' in a wire's '(pts ...)'")
             return points[0], points[1]
     raise _Bad(path, "expected '(pts (xy X Y) (xy X Y))' in '(wire ...)'")
-
-
-def _label(item: list[Any], path: tuple[int, ...]) -> Label:
-    name = _text(item, 1, path, "the label name")
-    for j, sub in enumerate(item):
-        if sub.__class__ is list and sub and sub[0] == "at":
-            x, y, _ = _at(sub, path + (j,))
-            return Label(item[0], name, _key(x, y))
-    raise _Bad(path, f"expected '(at X Y A)' in '({item[0]} ...)'")
 
 
 def _unit_of(name: str) -> tuple[int, int]:
@@ -270,24 +266,21 @@ def _unit_of(name: str) -> tuple[int, int]:
 def _lib_symbol(item: list[Any], path: tuple[int, ...]) -> LibSymbol:
     name = _text(item, 1, path, "the library symbol name")
     lib = LibSymbol(name=name, pins=[])
-    for j, sub in enumerate(item[2:], start=2):
-        if sub.__class__ is not list or not sub:
-            continue
-        head = sub[0]
+    for head, sub, where in _lists(item, path, 2):
         if head == "symbol":
-            unit, body = _unit_of(_text(sub, 1, path + (j,), "the unit name"))
+            unit, body = _unit_of(_text(sub, 1, where, "the unit name"))
             lib.unit_count = max(lib.unit_count, unit)
-            for k, pin in enumerate(sub[2:], start=2):
-                if pin.__class__ is list and pin and pin[0] == "pin":
-                    lib.pins.append(_lib_pin(pin, path + (j, k), unit, body))
+            for pin_head, pin, at in _lists(sub, where, 2):
+                if pin_head == "pin":
+                    lib.pins.append(_lib_pin(pin, at, unit, body))
         elif head == "pin":
-            lib.pins.append(_lib_pin(sub, path + (j,), 0, 0))
+            lib.pins.append(_lib_pin(sub, where, 0, 0))
         elif head == "property":
             key = sub[1] if len(sub) > 1 else ""
             if key in ("Description", "ki_description"):
-                lib.description = _text(sub, 2, path + (j,), "the description")
+                lib.description = _text(sub, 2, where, "the description")
             elif key == "ki_keywords":
-                lib.keywords = _text(sub, 2, path + (j,), "the keywords")
+                lib.keywords = _text(sub, 2, where, "the keywords")
         elif head == "power":
             lib.is_power = True
             if len(sub) > 1 and sub[1] == "local":
@@ -328,11 +321,7 @@ def _placed_symbol(item: list[Any], path: tuple[int, ...]) -> PlacedSymbol:
     in_bom = True
     props: dict[str, str] = {}
     instances: list[Instance] = []
-    for j, sub in enumerate(item):
-        if sub.__class__ is not list or not sub:
-            continue
-        head = sub[0]
-        where = path + (j,)
+    for head, sub, where in _lists(item, path):
         if head == "property":
             key = _text(sub, 1, where, "the property name")
             props[key] = _text(sub, 2, where, f"the value of property {key!r}")
@@ -366,52 +355,42 @@ def _placed_symbol(item: list[Any], path: tuple[int, ...]) -> PlacedSymbol:
                         uuid, props, instances, path[0])
 
 
+def _instance_entry(entry: list[Any], where: tuple[int, ...]) -> dict[str, Any]:
+    """``(path "..." (reference "R1") (unit 1) (value ...) (footprint ...))``."""
+    fields: dict[str, Any] = {"path": _text(entry, 1, where, "the instance path"),
+                              "reference": "", "unit": None, "value": "", "footprint": ""}
+    for head, sub, at in _lists(entry, where, 2):
+        if head == "unit":
+            fields["unit"] = int(_number(sub, 1, at, "the unit"))
+        elif head in fields:
+            fields[head] = _text(sub, 1, at, head)
+    return fields
+
+
 def _instances(node: list[Any], path: tuple[int, ...], out: list[Instance]) -> None:
-    for j, project in enumerate(node[1:], start=1):
-        if project.__class__ is not list or not project or project[0] != "project":
+    for head, project, where in _lists(node, path):
+        if head != "project":
             continue
         name = project[1] if len(project) > 1 and project[1].__class__ is str else ""
-        for k, entry in enumerate(project[2:], start=2):
-            if entry.__class__ is not list or not entry or entry[0] != "path":
-                continue
-            where = path + (j, k)
-            inst_path = _text(entry, 1, where, "the instance path")
-            reference, unit = "", None
-            for m, sub in enumerate(entry[2:], start=2):
-                if sub.__class__ is list and sub:
-                    if sub[0] == "reference":
-                        reference = _text(sub, 1, where + (m,), "the reference")
-                    elif sub[0] == "unit":
-                        unit = int(_number(sub, 1, where + (m,), "the unit"))
-            out.append(Instance(name, inst_path, reference, unit))
+        for entry_head, entry, at in _lists(project, where, 2):
+            if entry_head == "path":
+                f = _instance_entry(entry, at)
+                out.append(Instance(name, f["path"], f["reference"], f["unit"]))
 
 
 def _symbol_instances(node: list[Any], path: tuple[int, ...],
                       out: dict[str, tuple[str, int | None, str, str]]) -> None:
-    for j, entry in enumerate(node[1:], start=1):
-        if entry.__class__ is not list or not entry or entry[0] != "path":
-            continue
-        where = path + (j,)
-        inst_path = _text(entry, 1, where, "the instance path")
-        fields = {"reference": "", "unit": None, "value": "", "footprint": ""}
-        for m, sub in enumerate(entry[2:], start=2):
-            if sub.__class__ is list and sub and sub[0] in fields:
-                if sub[0] == "unit":
-                    fields["unit"] = int(_number(sub, 1, where + (m,), "the unit"))
-                else:
-                    fields[sub[0]] = _text(sub, 1, where + (m,), sub[0])
-        out[inst_path] = (fields["reference"], fields["unit"], fields["value"], fields["footprint"])
+    for head, entry, where in _lists(node, path):
+        if head == "path":
+            f = _instance_entry(entry, where)
+            out[f["path"]] = (f["reference"], f["unit"], f["value"], f["footprint"])
 
 
 def _sheet_symbol(item: list[Any], path: tuple[int, ...]) -> SheetSymbol:
     uuid = name = file = ""
     pins: list[SheetPin] = []
     dnp = exclude = False
-    for j, sub in enumerate(item):
-        if sub.__class__ is not list or not sub:
-            continue
-        head = sub[0]
-        where = path + (j,)
+    for head, sub, where in _lists(item, path):
         if head == "property":
             key = _text(sub, 1, where, "the property name")
             if key in ("Sheetname", "Sheet name"):
@@ -422,14 +401,7 @@ def _sheet_symbol(item: list[Any], path: tuple[int, ...]) -> SheetSymbol:
             uuid = _text(sub, 1, where, "the uuid")
         elif head == "pin":
             pin_name = _text(sub, 1, where, "the sheet pin name")
-            point = None
-            for k, at in enumerate(sub):
-                if at.__class__ is list and at and at[0] == "at":
-                    x, y, _ = _at(at, where + (k,))
-                    point = _key(x, y)
-            if point is None:
-                raise _Bad(where, "expected '(at X Y A)' in a sheet '(pin ...)'")
-            pins.append(SheetPin(pin_name, point))
+            pins.append(SheetPin(pin_name, _point(sub, where, "a sheet '(pin ...)'")))
         elif head == "dnp":
             dnp = _yes(sub)
         elif head == "exclude_from_sim":
