@@ -112,21 +112,23 @@ def _kind(part: Part) -> str:
 
 @lru_cache(maxsize=4096)
 def _kind_of(lib_id: str, letters: str) -> str:
+    """By the library symbol's name; by the reference letters where there is none
+    (netlists of hand-made libraries)."""
     name = lib_id.split(":", 1)[-1]
     if _POT.match(name) or letters in ("RV", "VR"):
         return "pot"
-    if _RESISTOR.match(name) or (letters == "R" and not name):
+    if _RESISTOR.match(name):
         return "resistor"
-    if _CAPACITOR.match(name) or (letters == "C" and not name):
+    if _CAPACITOR.match(name):
         return "capacitor"
-    if _SHORT.match(name) or letters in ("L", "FB") and not name:
+    if _SHORT.match(name):
         return "short"
     if _CONNECTOR_LIB.match(lib_id) or (letters in ("J", "P", "CN", "X")
                                          and name.lower().startswith("conn")):
         return "connector"
-    if not lib_id and letters in ("R", "C", "L", "FB", "J"):
+    if not name:
         return {"R": "resistor", "C": "capacitor", "L": "short", "FB": "short",
-                "J": "connector"}[letters]
+                "J": "connector"}.get(letters, "other")
     return "other"
 
 
@@ -148,7 +150,6 @@ def build_network(netlist: Netlist, units: list[OpampUnit], skipped: list[Skippe
     connector_nets: dict[str, str] = {}
     opamp_refs = {(u.part.ref, u.part.unit) for u in units}
     skipped_refs = {(s.part.ref, s.part.unit): s.reason for s in skipped}
-    seen_pot: set[str] = set()
 
     for part in netlist.parts:
         if part.dnp or part.is_power:
@@ -184,8 +185,7 @@ def build_network(netlist: Netlist, units: list[OpampUnit], skipped: list[Skippe
                 continue
             tol, tol_source = _tolerance(part, default_tolerance, problems)
             resistors_raw.append((part.ref, a, b, ohms, tol, tol_source))
-        elif kind == "pot" and len(part.pins) == 3 and (part.ref, part.unit) not in seen_pot:
-            seen_pot.add((part.ref, part.unit))
+        elif kind == "pot" and len(part.pins) == 3:
             try:
                 ohms = parse_resistance(_leading_value(part.value), f"the value of {part.ref}")
             except ValueFormatError as error:
@@ -226,14 +226,14 @@ def build_network(netlist: Netlist, units: list[OpampUnit], skipped: list[Skippe
     canon = lambda n: canonical.get(n, merge.find(n))  # noqa: E731
 
     fixed: dict[str, str] = {}
-    driven = _driven_nets(netlist, pin_net, units)
+    driven_raw, sources = _drivers(netlist, pin_net, units)
+    driven = {canon(n) for n in driven_raw}
     for net in netlist.nets:
-        name = canon(net.name)
         if net.kind == "power":
-            fixed[name] = "rail"
+            fixed[canon(net.name)] = "rail"
     opamp_outs = {canon(pin_net[(u.part.ref, u.out.number)]) for u in units
                   if (u.part.ref, u.out.number) in pin_net}
-    for net_name, why in sorted(_driven_by_others(netlist, pin_net, units).items()):
+    for net_name, why in sorted(sources.items()):
         name = canon(net_name)
         if name not in fixed and name not in opamp_outs:
             fixed[name] = why
@@ -305,41 +305,33 @@ def _tolerance(part: Part, default: float, problems: list[str]) -> tuple[float, 
     return default, "default"
 
 
-def _driven_nets(netlist: Netlist, pin_net: dict[tuple[str, str], str],
-                 units: list[OpampUnit]) -> set[str]:
-    """Nets driven from inside the design: any output or power-output pin."""
-    driven = set()
-    for part in netlist.parts:
-        if part.dnp:
-            continue
-        for pin in part.pins:
-            if pin.electrical_type in ("output", "power_out", "tri_state", "open_collector"):
-                net = pin_net.get((part.ref, pin.number))
-                if net:
-                    driven.add(net)
-    for unit in units:
-        net = pin_net.get((unit.part.ref, unit.out.number))
-        if net:
-            driven.add(net)
-    return driven
+_DRIVING = ("output", "power_out", "tri_state", "open_collector")
 
 
-def _driven_by_others(netlist: Netlist, pin_net: dict[tuple[str, str], str],
-                      units: list[OpampUnit]) -> dict[str, str]:
-    """Nets driven by an output pin of a part that is not an analysed op-amp (a DAC,
-    a reference, a regulator, a comparator): ideal sources for the error analysis."""
+def _drivers(netlist: Netlist, pin_net: dict[tuple[str, str], str],
+             units: list[OpampUnit]) -> tuple[set[str], dict[str, str]]:
+    """Nets driven from inside the design (by any output-type pin), and among them those
+    driven by an output or power-output pin of a part that is not an analysed op-amp (a
+    DAC, a reference, a regulator, a comparator), with why: ideal sources for the error
+    analysis."""
     analysed = {(u.part.ref, u.out.number) for u in units}
-    found: dict[str, str] = {}
+    driven: set[str] = {pin_net[key] for key in analysed if key in pin_net}
+    sources: dict[str, str] = {}
     for part in netlist.parts:
         if part.dnp or part.is_power:
             continue
         for pin in part.pins:
-            if pin.electrical_type in ("output", "power_out") and (part.ref, pin.number) not in analysed:
-                net = pin_net.get((part.ref, pin.number))
-                if net:
-                    found.setdefault(net, f"driven by {part.ref} pin {pin.number} "
-                                          f"({pin.electrical_type})")
-    return found
+            if pin.electrical_type not in _DRIVING:
+                continue
+            net = pin_net.get((part.ref, pin.number))
+            if net is None:
+                continue
+            driven.add(net)
+            if pin.electrical_type in ("output", "power_out") and \
+                    (part.ref, pin.number) not in analysed:
+                sources.setdefault(net, f"driven by {part.ref} pin {pin.number} "
+                                        f"({pin.electrical_type})")
+    return driven, sources
 
 
 def _note_sources(network: Network) -> None:
