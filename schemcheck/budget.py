@@ -37,7 +37,6 @@ class StageBudget:
     rss_v: float | None = None
     worst_case_over_temp_v: float | None = None
     worst_temp_c: float | None = None
-    monte_carlo_v: float | None = None
     contributors: list[dict] = field(default_factory=list)
 
 
@@ -64,7 +63,8 @@ def stage_budget(solution: Solution, k: int, params: list[OpampParams],
     if solution.status[k] != "ok":
         return budget
     low, high = temp_range
-    at25 = {j: at_temperature(params[j], 25.0, high) for j in reaching(solution, k)}
+    sources = reaching(solution, k)
+    at25 = {j: at_temperature(params[j], 25.0, high) for j in sources}
     own = _terms(solution, k, k, at25[k])
     if own is not None:
         budget.worst_case_own_v = sum(own)
@@ -72,30 +72,26 @@ def stage_budget(solution: Solution, k: int, params: list[OpampParams],
     if solution.tainted[k]:
         return budget
     total: list[float] = []
-    for j in reaching(solution, k):
+    for j in sources:
         terms = _terms(solution, k, j, at25[j])
-        if terms is None:
-            total = []
-            break
+        if terms is None:  # an op-amp without parameters reaches this output
+            budget.contributors = []
+            return budget
         total.extend(terms)
         budget.contributors.append({"opamp": j, "worst_case_v": sum(terms)})
-    if not total:
-        budget.contributors = []
-        return budget
     budget.worst_case_total_v = sum(total)
     budget.rss_v = math.sqrt(sum(t * t for t in total))
-    worst = max(((total_at(solution, k, params, temp, high), temp)
-                 for temp in sorted({low, high}, reverse=True)),
-                key=lambda pair: pair[0])
-    budget.worst_case_over_temp_v, budget.worst_temp_c = worst
+    budget.worst_case_over_temp_v, budget.worst_temp_c = max(
+        ((total_at(solution, k, params, temp, high, sources), temp)
+         for temp in sorted({low, high}, reverse=True)), key=lambda pair: pair[0])
     return budget
 
 
 def total_at(solution: Solution, k: int, params: list[OpampParams], temp: float,
-             range_top: float) -> float:
+             range_top: float, sources: list[int] | None = None) -> float:
     """Worst-case total at op-amp k's output at ``temp`` (incomplete parts count 0)."""
     value = 0.0
-    for j in reaching(solution, k):
+    for j in reaching(solution, k) if sources is None else sources:
         terms = _terms(solution, k, j, at_temperature(params[j], temp, range_top))
         value += sum(terms or [])
     return value
@@ -148,50 +144,38 @@ def _group_errors(network: Network, solution: Solution, params: list[OpampParams
     rhs = np.zeros((count, size, n_col))
     nominal = np.zeros((count, n_res))
     tolerance = np.zeros((count, n_res))
-    stamp_i = np.full((count, n_res), -1)
-    stamp_j = np.full((count, n_res), -1)
+    # stamp pattern of every resistor slot: +1 on the diagonal, -1 off it, 0 for fixed nets
+    stamps = np.zeros((count, n_res, size, size))
     out_rows = np.zeros((count, n_out), dtype=int)
     sigma = np.zeros((count, n_col))  # 3-sigma = maximum at the group's temperature
-    kind = np.zeros((count, n_col), dtype=int)  # 0 vos, 1 ib_plus, 2 ib_minus, 3 none
+    kind = np.full((count, n_col), 3)  # 0 vos, 1 ib_plus, 2 ib_minus, 3 none
     owner = np.zeros((count, n_col), dtype=int)  # column's op-amp, within the group
     opamp_index: dict[int, int] = {}
+    ios_max: list[float] = []  # per op-amp of the group, at its system's temperature
     for g, system in enumerate(systems):
         rhs[g, :, :len(system.columns)] = system.rhs
         for r, ((i, j), cond, index) in enumerate(zip(system.stamps, system.conductance,
                                                       system.component.resistors)):
-            stamp_i[g, r], stamp_j[g, r] = i, j
             nominal[g, r] = cond
             tolerance[g, r] = network.resistors[index].tolerance
+            for a, b, sign in ((i, i, 1.0), (j, j, 1.0), (i, j, -1.0), (j, i, -1.0)):
+                if a >= 0 and b >= 0:
+                    stamps[g, r, a, b] += sign
         out_rows[g, :len(system.out_rows)] = list(system.out_rows.values())
         solved = [k for k in system.out_rows if solution.status[k] == "ok"]
         temp = max(sorted({low, high}, reverse=True),
                    key=lambda t: sum(total_at(solution, k, params, t, high) for k in solved))
-        kind[g] = 3
         for c, (j, source) in enumerate(system.columns):
             if source == "unknown":
                 continue
-            opamp_index.setdefault(j, len(opamp_index))
+            p = at_temperature(params[j], temp, high)
+            if j not in opamp_index:
+                opamp_index[j] = len(opamp_index)
+                ios_max.append(p.ios or 0.0)
             owner[g, c] = opamp_index[j]
             kind[g, c] = ("vos", "ib_plus", "ib_minus").index(source)
-            p = at_temperature(params[j], temp, high)
             sigma[g, c] = (p.vos if source == "vos" else p.ib) or 0.0
-    # Ios per op-amp at its group's temperature (the Ib columns carry Ib; Ios added below)
-    ios_sigma = np.zeros(len(opamp_index))
-    for j, q in opamp_index.items():
-        temps = [low, high]
-        ios_sigma[q] = max((at_temperature(params[j], t, high).ios or 0.0) for t in temps)
-    # stamp pattern of every resistor slot: +1 on the diagonal, -1 off it, 0 for fixed nets
-    stamps = np.zeros((count, n_res, size, size))
-    for g in range(count):
-        for r in range(n_res):
-            i, j = stamp_i[g, r], stamp_j[g, r]
-            if i >= 0:
-                stamps[g, r, i, i] += 1.0
-            if j >= 0:
-                stamps[g, r, j, j] += 1.0
-            if i >= 0 and j >= 0:
-                stamps[g, r, i, j] -= 1.0
-                stamps[g, r, j, i] -= 1.0
+    ios_sigma = np.array(ios_max)
     out = np.empty((count, samples, n_out))
     per_chunk = max(1, chunk_values // max(1, count * size * size))
     for start in range(0, samples, per_chunk):
