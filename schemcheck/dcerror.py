@@ -82,8 +82,6 @@ class Solution:
     #: op-amp k -> inputs with no DC path: [("+", net), ...]
     floating_inputs: list[list[tuple[str, str]]]
     systems: list[System] = field(default_factory=list)
-    component_of: dict[int, int] = field(default_factory=dict)  # op-amp -> system index
-    floating_nets: set[str] = field(default_factory=set)
 
     def own(self, k: int) -> dict[str, float] | None:
         """Sensitivities of op-amp k's output to its own sources (V/V, V/A)."""
@@ -92,23 +90,19 @@ class Solution:
         return {s: self.sensitivity[k].get((k, s), 0.0) for s in SOURCES}
 
 
-def _adjacency(network: Network) -> dict[str, set[str]]:
-    adj: dict[str, set[str]] = {}
-    for r in network.resistors:
-        adj.setdefault(r.a, set()).add(r.b)
-        adj.setdefault(r.b, set()).add(r.a)
-    return adj
+def _neighbours(network: Network, net: str) -> list[str]:
+    """Nets one resistor away from ``net``."""
+    return [r.b if r.a == net else r.a for r in network.resistors_at(net)]
 
 
 def grounded_nets(network: Network) -> set[str]:
     """Nets with a DC path (through resistors) to a fixed net or an op-amp output."""
-    adj = _adjacency(network)
     seeds = set(network.fixed) | {op.out for op in network.opamps}
     seen = set(seeds)
     queue = deque(seeds)
     while queue:
         net = queue.popleft()
-        for other in adj.get(net, ()):
+        for other in _neighbours(network, net):
             if other not in seen:
                 seen.add(other)
                 queue.append(other)
@@ -124,7 +118,7 @@ def _through(network: Network) -> dict[str, set[str]]:
     return through
 
 
-def has_dc_feedback(network: Network, k: int, adj: dict[str, set[str]] | None = None,
+def has_dc_feedback(network: Network, k: int,
                     through: dict[str, set[str]] | None = None) -> bool:
     """True when op-amp k's output reaches its inverting input through resistors and
     other op-amps (input -> output), without passing through a fixed net."""
@@ -134,13 +128,12 @@ def has_dc_feedback(network: Network, k: int, adj: dict[str, set[str]] | None = 
     fixed = network.fixed
     if opamp.minus in fixed or opamp.out in fixed:
         return False
-    adj = _adjacency(network) if adj is None else adj
     through = _through(network) if through is None else through
     seen = {opamp.out}
     queue = deque([opamp.out])
     while queue:
         net = queue.popleft()
-        for nxt in adj.get(net, set()) | through.get(net, set()):
+        for nxt in [*_neighbours(network, net), *through.get(net, ())]:
             if nxt in fixed or nxt in seen:
                 continue
             if nxt == opamp.minus:
@@ -240,7 +233,7 @@ def solve(network: Network) -> Solution:
     grounded = grounded_nets(network)
     status = ["ok"] * m
     floating: list[list[tuple[str, str]]] = [[] for _ in range(m)]
-    adj, through = _adjacency(network), _through(network)
+    through = _through(network)
     for k, op in enumerate(network.opamps):
         if op.out in network.fixed:
             status[k] = "output-fixed"
@@ -250,19 +243,16 @@ def solve(network: Network) -> Solution:
                 floating[k].append((sign, net))
         if floating[k]:
             status[k] = "no-bias-path"
-        elif not has_dc_feedback(network, k, adj, through):
+        elif not has_dc_feedback(network, k, through):
             status[k] = "no-dc-feedback"
     all_nets = {r.a for r in network.resistors} | {r.b for r in network.resistors}
     for op in network.opamps:
         all_nets.update((op.plus, op.minus, op.out))
     active = {n for n in all_nets if n in grounded and n not in network.fixed}
-    solution = Solution(status, [dict() for _ in range(m)], [False] * m, floating,
-                        floating_nets=all_nets - grounded)
-    for c_index, component in enumerate(_components(network, active)):
+    solution = Solution(status, [dict() for _ in range(m)], [False] * m, floating)
+    for component in _components(network, active):
         system = build_system(network, component, status)
         solution.systems.append(system)
-        for k in component.opamps:
-            solution.component_of[k] = c_index
         try:
             a = system.matrix()
             if np.linalg.cond(a) > 1e13:
@@ -279,7 +269,6 @@ def solve(network: Network) -> Solution:
                 if source == "unknown":
                     if abs(value) > 1e-12:
                         solution.tainted[k] = True
-                elif status[j] == "ok" or source != "vos":
-                    if value != 0.0:
-                        solution.sensitivity[k][(j, source)] = float(value)
+                elif value != 0.0:
+                    solution.sensitivity[k][(j, source)] = float(value)
     return solution
