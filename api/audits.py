@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import hashlib
 import json
 import os
 import shutil
@@ -11,11 +10,7 @@ from pathlib import PurePosixPath
 
 from flask import Blueprint, Response, current_app, request
 
-from schemcheck.batch import settings_for
-from schemcheck.cache import design_key
-from schemcheck.errors import SchemcheckError
-from schemcheck.io.discover import find_designs
-from schemcheck.settings import Settings
+from schemcheck.batch import submission_key
 
 from .problems import Problem
 from .schemas import AuditListSchema, AuditSchema, ListQuerySchema, PathRequestSchema
@@ -25,21 +20,6 @@ _AUDIT = AuditSchema()  # built once: a schema instance costs more than a small 
 _LIST = AuditListSchema()
 _PATH = PathRequestSchema()
 _QUERY = ListQuerySchema()
-
-
-def _submission_key(paths: list[str], overrides: dict) -> str:
-    """Content key of a submission: every design's files and effective settings (a
-    settings file beside a design included), the parts library, the tool version."""
-    designs, _ = find_designs(paths)
-    digest = hashlib.sha256()
-    for design in designs:
-        try:
-            settings = settings_for(design.root, Settings(), dict(overrides))
-        except SchemcheckError:
-            settings = Settings()  # the audit itself reports the bad settings file
-        digest.update(design_key(design.files, settings.describe(),
-                                 settings.parts_library).encode())
-    return digest.hexdigest()
 
 
 def _safe_relative(name: str) -> str:
@@ -60,7 +40,7 @@ def _answer(record: dict, cached: bool, status: int = 201) -> tuple[dict, int]:
 
 
 def _audit(paths: list[str], name: str, strip: str | None) -> tuple[dict, int]:
-    key = _submission_key(paths, current_app.config["AUDIT_OVERRIDES"])
+    key = submission_key(paths, current_app.config["AUDIT_OVERRIDES"])
     existing = _store().find_by_key(key)
     if existing is not None:
         return _answer(existing, True)

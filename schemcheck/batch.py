@@ -6,6 +6,7 @@ unreadable design becomes a finding on that file and the batch goes on.
 
 from __future__ import annotations
 
+import hashlib
 import os
 import sys
 from concurrent.futures import ProcessPoolExecutor
@@ -30,6 +31,30 @@ def settings_for(root: str, base: Settings, overrides: dict[str, Any],
     settings = load_settings(path, base) if path else base
     given = set(settings.given) | set(overrides.pop("given", ()))
     return replace(settings, **overrides, given=tuple(sorted(given)))
+
+
+def design_key_for(design: DesignRef, settings: Settings) -> str | None:
+    """The results-store key of ``design`` audited with ``settings`` (None when a file
+    cannot be read: such a design is audited, and reported, without the store)."""
+    from .cache import design_key
+
+    try:
+        return design_key(design.files, settings.describe(), settings.parts_library)
+    except OSError:
+        return None
+
+
+def submission_key(paths: list[str], overrides: dict[str, Any]) -> str:
+    """One key for everything under ``paths`` (the service's identical-submission test)."""
+    designs, _ = find_designs(paths)
+    digest = hashlib.sha256()
+    for design in designs:
+        try:
+            settings = settings_for(design.root, Settings(), dict(overrides))
+        except SchemcheckError:
+            settings = Settings()  # the audit itself reports the bad settings file
+        digest.update((design_key_for(design, settings) or design.root).encode())
+    return digest.hexdigest()
 
 
 def _unreadable(root: str, message: str, settings: Settings | None = None) -> dict[str, Any]:
@@ -76,8 +101,6 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
                 jobs: int | None = None, cache: Any = None,
                 progress: Callable[[int, int], None] | None = None) -> dict[str, Any]:
     """Audit every design under ``paths``; the report of ``schemcheck audit``."""
-    from .cache import design_key
-
     designs, missing = find_designs(paths)
     results: list[dict[str, Any] | None] = [None] * len(designs)
     todo: list[tuple[int, DesignRef, Settings, str | None]] = []
@@ -91,10 +114,7 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
             continue
         key = None
         if cache is not None:
-            try:
-                key = design_key(design.files, settings.describe(), settings.parts_library)
-            except OSError:
-                key = None
+            key = design_key_for(design, settings)
             hit = cache.get(key) if key else None
             if hit is not None:
                 results[index] = hit
