@@ -1,6 +1,6 @@
 """A 200-stage sheet audited end to end vs its netlist build alone.
 
-Prints the ratio of ``schemcheck.runner.audit_files`` (read, connect, recognise, solve,
+Prints the ratio of ``schemcheck.batch.audit_paths`` (read, connect, recognise, solve,
 budgets, findings, Monte Carlo with the default 10,000 samples per network) against
 ``schemcheck.io.loader.load_netlist`` on the same file in the same process, and the
 same with the Monte Carlo switched off. Target: under 1.5x.
@@ -16,7 +16,7 @@ from pathlib import Path
 from _common import best_of, stage_sheet
 
 from schemcheck.io.loader import load_netlist
-from schemcheck.runner import audit_files, options_to_settings
+from schemcheck.batch import audit_paths
 
 
 def main() -> None:
@@ -24,11 +24,10 @@ def main() -> None:
     path = folder / "stages.kicad_sch"
     path.write_text(stage_sheet(200).text(), encoding="utf-8")
     build = best_of(lambda: load_netlist(path), 5)
-    default = options_to_settings()
-    no_mc = options_to_settings(samples=0)
-    full = best_of(lambda: audit_files([str(path)], default), 3)
-    without = best_of(lambda: audit_files([str(path)], no_mc), 5)
-    stages = len(audit_files([str(path)], no_mc)["designs"][0]["stages"])
+    full = best_of(lambda: audit_paths([str(path)], jobs=1), 3)
+    without = best_of(lambda: audit_paths([str(path)], overrides={"mc_samples": 0}, jobs=1), 5)
+    stages = len(audit_paths([str(path)], overrides={"mc_samples": 0},
+                             jobs=1)["designs"][0]["stages"])
     print(f"{stages} stages, {path.stat().st_size / 1e6:.2f} MB")
     print(f"netlist build alone          {build * 1e3:7.1f} ms  (baseline)")
     print(f"audit, Monte Carlo off       {without * 1e3:7.1f} ms  ratio {without / build:4.2f}x"

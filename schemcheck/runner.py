@@ -1,12 +1,10 @@
-"""Command-line options -> settings overrides, and the one call the CLI makes."""
+"""Command-line options -> settings overrides (they win over a settings file)."""
 
 from __future__ import annotations
 
-from dataclasses import replace
 from typing import Any
 
 from .errors import ParseError
-from .settings import Settings
 from .units import ValueFormatError, parse_quantity, parse_temperature_range
 
 
@@ -34,19 +32,3 @@ def options_to_overrides(*, temp: str | None = None, parts: str | None = None,
     if given:
         changes["given"] = tuple(given)
     return changes
-
-
-def options_to_settings(**options: Any) -> Settings:
-    overrides = options_to_overrides(**options)
-    given = overrides.pop("given", ())
-    return replace(Settings(), **overrides, given=tuple(given))
-
-
-def audit_files(paths: list[str], settings: Settings) -> dict[str, Any]:
-    """Audit ``paths`` in this process with ``settings`` over any settings file, no cache."""
-    from dataclasses import asdict
-
-    from .batch import audit_paths
-
-    overrides = {k: v for k, v in asdict(settings).items() if v != getattr(Settings(), k)}
-    return audit_paths(paths, overrides=overrides, jobs=1, cache=None)

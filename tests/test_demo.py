@@ -9,7 +9,8 @@ from __future__ import annotations
 
 import pytest
 
-from schemcheck.runner import audit_files, options_to_settings
+from schemcheck.batch import audit_paths
+from schemcheck.runner import options_to_overrides
 
 from . import make_demo
 from .conftest import FIXTURES
@@ -19,8 +20,9 @@ DEMO = FIXTURES / "demo"
 
 @pytest.fixture(scope="module")
 def demo():
-    settings = options_to_settings(parts=str(DEMO / "parts.toml"), samples=2000)
-    return audit_files([str(DEMO / "frontend.kicad_sch")], settings)["designs"][0]
+    overrides = options_to_overrides(parts=str(DEMO / "parts.toml"), samples=2000)
+    return audit_paths([str(DEMO / "frontend.kicad_sch")], overrides=overrides,
+                       jobs=1)["designs"][0]
 
 
 def test_demo_files_are_current(tmp_path, monkeypatch):
