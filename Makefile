@@ -11,7 +11,7 @@ STAMP := $(VENV)/.installed-stamp
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install --quiet --upgrade pip
-	$(BIN)/python -m pip install --quiet -e '.[test]' --config-settings editable_mode=compat
+	$(BIN)/python -m pip install --quiet -e '.[test]'
 	touch $(STAMP)
 
 # The demo design has defects on purpose: exit status 1 (error findings) is its normal result.
@@ -23,7 +23,7 @@ test: $(STAMP)
 	$(BIN)/python -m pytest
 
 bench: $(STAMP)
-	for b in bench/bench_*.py; do $(BIN)/python $$b || exit 1; done
+	for b in benchmarks/bench_*.py; do $(BIN)/python $$b || exit 1; done
 
 clean:
 	rm -rf $(VENV) .pytest_cache .hypothesis

@@ -10,7 +10,7 @@ from pathlib import PurePosixPath
 
 from flask import Blueprint, Response, current_app, request
 
-from schemcheck.batch import submission_key
+from schemcheck.run.batch import submission_key
 
 from .problems import Problem
 from .schemas import AuditListSchema, AuditSchema, ListQuerySchema, PathRequestSchema

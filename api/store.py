@@ -9,7 +9,7 @@ import time
 import uuid
 from typing import Any
 
-from schemcheck.cache import ResultCache
+from schemcheck.run.cache import ResultCache
 
 
 class AuditStore:

@@ -9,10 +9,10 @@ def _warm() -> None:
     from schemcheck.audit import audit_netlist
     from schemcheck.io import loader, partslib, settings_file  # noqa: F401
     from schemcheck.io.kicad_sch import read_sheet
-    from schemcheck.connectivity import build_netlist
-    from schemcheck.io.design import Design
+    from schemcheck.circuit.connectivity import build_netlist
+    from schemcheck.drawing import Design
     from schemcheck.report import markdown, sarif  # noqa: F401
-    from schemcheck.settings import Settings
+    from schemcheck.run.settings import Settings
 
     from schemcheck.model import Net, Netlist, Node, Part, Pin
 

@@ -19,11 +19,11 @@ from typing import Any
 from .problems import Problem
 
 _CONTEXT = multiprocessing.get_context("forkserver")
-_CONTEXT.set_forkserver_preload(["schemcheck.batch", "api.warm"])
+_CONTEXT.set_forkserver_preload(["schemcheck.run.batch", "schemcheck_api.warm"])
 
 
 def _run(paths: list[str], overrides: dict[str, Any]) -> dict[str, Any]:
-    from schemcheck.batch import audit_paths
+    from schemcheck.run.batch import audit_paths
 
     return audit_paths(paths, overrides=overrides, jobs=1, cache=None)
 

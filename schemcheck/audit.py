@@ -9,17 +9,17 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
-from . import checks
-from .budget import StageBudget, monte_carlo, stage_budget
-from .checks.context import StageContext
-from .dcerror import Solution, solve
-from .model import Finding, Netlist, natural_key
-from .network import Network, build_network
-from .params import OpampParams, ParameterError, resolve
-from .settings import Settings
-from .stages import recognise
-from .topology import label
-from .units import ValueFormatError, parse_quantity
+from schemcheck import checks
+from schemcheck.engine.budget import StageBudget, monte_carlo, stage_budget
+from schemcheck.checks.context import StageContext
+from schemcheck.engine.dcerror import Solution, solve
+from schemcheck.model import Finding, Netlist, natural_key
+from schemcheck.engine.network import Network, build_network
+from schemcheck.engine.params import OpampParams, ParameterError, resolve
+from schemcheck.run.settings import Settings
+from schemcheck.engine.stages import recognise
+from schemcheck.engine.topology import label
+from schemcheck.units import ValueFormatError, parse_quantity
 
 CAUTION = ("These figures come from the schematic as drawn and the part data given; they "
            "do not replace a review by a qualified engineer or the applicable standards.")

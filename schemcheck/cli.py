@@ -9,8 +9,8 @@ from typing import Any, Callable
 
 import click
 
-from . import __version__
-from .errors import SchemcheckError
+from schemcheck import __version__
+from schemcheck.errors import SchemcheckError
 
 EXIT_FINDINGS = 1
 EXIT_BAD_INPUT = 2
@@ -74,13 +74,13 @@ def netlist(path: str, fmt: str) -> None:
     Example:
       schemcheck netlist board.kicad_sch --format json > nets.json
     """
-    from .io.loader import load_netlist
+    from schemcheck.circuit.load import load_netlist
 
     result = load_netlist(path)
     if fmt == "json":
         _emit(_json(result.to_dict()))
     else:
-        from .report.netlist_text import netlist_text
+        from schemcheck.report.netlist_text import netlist_text
 
         _emit(netlist_text(result))
     for error in result.errors:
@@ -133,14 +133,14 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
       schemcheck audit frontend.kicad_sch --temp -40:85 --parts opamps.toml --format text
       schemcheck audit designs/ --jobs 4 --format markdown --output checklist.md
     """
-    from .batch import Progress, audit_paths, exit_status
-    from .runner import options_to_overrides
+    from schemcheck.run.batch import Progress, audit_paths, exit_status
+    from schemcheck.run.runner import options_to_overrides
 
     overrides = options_to_overrides(temp=temp, parts=parts, budget=budget, samples=samples,
                                      seed=seed)
     cache = None
     if not no_cache:
-        from .cache import ResultCache
+        from schemcheck.run.cache import ResultCache
 
         cache = ResultCache(cache_file)
     try:
@@ -151,7 +151,7 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
             cache.close()
     text = _render(report, fmt, output)
     if output:
-        from .io.files import write_text
+        from schemcheck.io.files import write_text
 
         write_text(output, text)
     else:
@@ -166,21 +166,21 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
 
 def _render(report: dict[str, Any], fmt: str, output: str | None) -> str:
     if fmt == "json":
-        from api.schemas import ReportSchema  # the service's definition of the shape
+        from schemcheck_api.schemas import ReportSchema  # the service's definition of the shape
 
         return _json(ReportSchema().dump(report))
     if fmt == "text":
-        from .report.audit_text import audit_text
+        from schemcheck.report.audit_text import audit_text
 
         return audit_text(report)
     if fmt == "markdown":
-        from .report.markdown import checklist
+        from schemcheck.report.markdown import checklist
 
         return checklist(report)
     import json
     import os
 
-    from .report.sarif import sarif
+    from schemcheck.report.sarif import sarif
 
     base = os.path.dirname(os.path.abspath(output)) if output else os.getcwd()
     return json.dumps(sarif(report, base), indent=2, ensure_ascii=False)
@@ -207,7 +207,7 @@ def bench(csv_file: str, fmt: str, parts: str | None, part: str | None, dry_run:
     Example:
       schemcheck bench loop.csv --parts opamps.toml --part LX-B27 --dry-run
     """
-    from .bench_run import bench_text, characterise_file
+    from schemcheck.characterise.command import bench_text, characterise_file
 
     if (parts is None) != (part is None):
         click.echo("Error: --parts and --part go together: name the library and the entry",
@@ -259,7 +259,7 @@ def serve(host: str, port: int, token: str | None, allow: tuple[str, ...], store
         sys.exit(EXIT_BAD_INPUT)
     import waitress
 
-    from api import create_app
+    from schemcheck_api import create_app
 
     overrides: dict[str, Any] = {}
     if parts:

@@ -12,7 +12,7 @@ import math
 import re
 from dataclasses import dataclass
 
-from .errors import SchemcheckError
+from schemcheck.errors import SchemcheckError
 
 PREFIXES = {"f": 1e-15, "p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "m": 1e-3,
             "": 1.0, "k": 1e3, "K": 1e3, "M": 1e6, "G": 1e9, "R": 1.0, "r": 1.0}

@@ -106,7 +106,7 @@ def via_service(design: str, url: str, token: str | None) -> tuple[dict, str]:
 
 def in_process(design: str) -> tuple[dict, str]:
     try:
-        from schemcheck.batch import audit_paths
+        from schemcheck.run.batch import audit_paths
         from schemcheck.report.markdown import checklist
     except ImportError:
         out = subprocess.run(["schemcheck", "audit", design, "--format", "json"],

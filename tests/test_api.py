@@ -14,7 +14,7 @@ import os
 
 import pytest
 
-from api import create_app
+from schemcheck_api import create_app
 
 from .conftest import FIXTURES
 

@@ -18,8 +18,8 @@ import time
 import pytest
 from click.testing import CliRunner
 
-from schemcheck.batch import audit_paths, exit_status
-from schemcheck.cache import ResultCache
+from schemcheck.run.batch import audit_paths, exit_status
+from schemcheck.run.cache import ResultCache
 from schemcheck.cli import main
 
 from .make_demo import stage

@@ -11,7 +11,7 @@ from __future__ import annotations
 import pytest
 
 from schemcheck.audit import audit_netlist
-from schemcheck.settings import Settings
+from schemcheck.run.settings import Settings
 
 from .circuits import circuit
 

@@ -18,7 +18,7 @@ import pytest
 import sympy
 from click.testing import CliRunner
 
-from schemcheck.bench_run import characterise_file
+from schemcheck.characterise.command import characterise_file
 from schemcheck.cli import main
 
 from .conftest import FIXTURES

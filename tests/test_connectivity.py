@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import pytest
 
-from schemcheck.io.loader import load_netlist
+from schemcheck.circuit.load import load_netlist
 
 from . import make_fixtures
 from .conftest import FIXTURES
@@ -148,8 +148,8 @@ BODY_STYLE = """(kicad_sch (version 20250114) (generator "eeschema") (uuid "aaaa
 def test_body_style_selects_the_de_morgan_pins():
     # KiCad file format: a library sub-symbol "NAME_UNIT_STYLE"; body style 2 is the
     # alternate (De Morgan) drawing, chosen by the placed symbol's (convert 2).
-    from schemcheck.connectivity import build_netlist
-    from schemcheck.io.design import Design
+    from schemcheck.circuit.connectivity import build_netlist
+    from schemcheck.drawing import Design
     from schemcheck.io.kicad_sch import read_sheet
 
     netlist = build_netlist(Design(root="k", sheets={"k": read_sheet(BODY_STYLE, "b.kicad_sch")}))

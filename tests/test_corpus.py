@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import pytest
 
-from schemcheck.io.loader import load_netlist
+from schemcheck.circuit.load import load_netlist
 
 from .conftest import CORPUS, corpus_files, corpus_ids, needs_corpus
 

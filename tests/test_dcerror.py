@@ -17,10 +17,10 @@ import numpy as np
 import pytest
 import sympy
 
-from schemcheck.dcerror import solve
-from schemcheck.network import build_network
-from schemcheck.params import at_temperature, resolve
-from schemcheck.stages import recognise
+from schemcheck.engine.dcerror import solve
+from schemcheck.engine.network import build_network
+from schemcheck.engine.params import at_temperature, resolve
+from schemcheck.engine.stages import recognise
 
 from .circuits import circuit
 

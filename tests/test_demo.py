@@ -9,8 +9,8 @@ from __future__ import annotations
 
 import pytest
 
-from schemcheck.batch import audit_paths
-from schemcheck.runner import options_to_overrides
+from schemcheck.run.batch import audit_paths
+from schemcheck.run.runner import options_to_overrides
 
 from . import make_demo
 from .conftest import FIXTURES

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import pytest
 
-from schemcheck.eseries import E24, E96, nearest
+from schemcheck.engine.eseries import E24, E96, nearest
 
 
 def test_e96_is_the_rounded_geometric_series():

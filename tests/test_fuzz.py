@@ -11,12 +11,12 @@ from __future__ import annotations
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from schemcheck.connectivity import build_netlist
+from schemcheck.circuit.connectivity import build_netlist
 from schemcheck.errors import SchemcheckError
-from schemcheck.io.design import Design
+from schemcheck.drawing import Design
 from schemcheck.io.files import decode
 from schemcheck.io.kicad_sch import read_sheet
-from schemcheck.io.loader import sniff
+from schemcheck.circuit.load import sniff
 from schemcheck.io.netlist import read_sexpr_netlist, read_xml_netlist
 
 from .conftest import FIXTURES, corpus_files

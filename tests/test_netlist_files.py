@@ -11,7 +11,7 @@ from __future__ import annotations
 import pytest
 
 from schemcheck.errors import ParseError
-from schemcheck.io.loader import load_netlist
+from schemcheck.circuit.load import load_netlist
 
 from .conftest import FIXTURES
 

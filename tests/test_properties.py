@@ -10,8 +10,8 @@ from __future__ import annotations
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from schemcheck.connectivity import build_netlist
-from schemcheck.io.design import Design
+from schemcheck.circuit.connectivity import build_netlist
+from schemcheck.drawing import Design
 from schemcheck.io.kicad_sch import read_sheet
 
 from .synth import PIN_AT, Sheet, pin_position

@@ -9,7 +9,7 @@ import os
 
 import pytest
 
-from schemcheck.io.loader import load_netlist
+from schemcheck.circuit.load import load_netlist
 
 from .conftest import FIXTURES
 

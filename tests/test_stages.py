@@ -9,9 +9,9 @@ from __future__ import annotations
 
 import pytest
 
-from schemcheck.io.loader import load_netlist
+from schemcheck.circuit.load import load_netlist
 from schemcheck.model import Part, Pin
-from schemcheck.stages import recognise
+from schemcheck.engine.stages import recognise
 
 from .conftest import CORPUS, needs_corpus
 

@@ -8,10 +8,10 @@ output error vanishes when the two are equal.
 
 from __future__ import annotations
 
-from ..eseries import nearest
-from ..model import Finding
-from ..units import format_si
-from .context import StageContext
+from schemcheck.engine.eseries import nearest
+from schemcheck.model import Finding
+from schemcheck.units import format_si
+from schemcheck.checks.context import StageContext
 
 MATCH_BAND = 1.2  # common practice: within 20 % counts as matched
 SIGNIFICANT = 0.1  # the Ib term must be at least this share of the stage's worst case

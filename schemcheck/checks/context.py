@@ -4,10 +4,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from ..budget import StageBudget
-from ..dcerror import Solution
-from ..network import Network
-from ..params import OpampParams
+from schemcheck.engine.budget import StageBudget
+from schemcheck.engine.dcerror import Solution
+from schemcheck.engine.network import Network
+from schemcheck.engine.params import OpampParams
 
 
 @dataclass(slots=True)

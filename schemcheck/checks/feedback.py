@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from ..model import Finding
-from .context import StageContext
+from schemcheck.model import Finding
+from schemcheck.checks.context import StageContext
 
 
 def check_feedback(ctx: StageContext) -> list[Finding]:

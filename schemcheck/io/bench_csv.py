@@ -12,10 +12,10 @@ import csv
 import io
 import math
 
-from ..characterise import Problem, Reading
-from ..errors import ParseError
-from ..units import ValueFormatError, parse_resistance
-from .files import read_text
+from schemcheck.characterise.analysis import Problem, Reading
+from schemcheck.errors import ParseError
+from schemcheck.units import ValueFormatError, parse_resistance
+from schemcheck.io.files import read_text
 
 REQUIRED = ("sample", "temp_c", "v1", "v2", "v3", "gain", "rs", "resolution")
 OPTIONAL = ("v4", "rail")

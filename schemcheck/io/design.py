@@ -7,27 +7,12 @@ malformed is recorded as a problem and the rest of the design is still read.
 from __future__ import annotations
 
 import os
-from dataclasses import dataclass, field
 
-from ..errors import DesignError, ParseError, SchemcheckError
-from . import sexpr
-from .files import read_text
-from .kicad_sch import SheetFile, read_sheet
-
-
-@dataclass(slots=True)
-class Design:
-    """The files of one design. ``sheets`` is keyed by normalised absolute path."""
-
-    root: str
-    sheets: dict[str, SheetFile]
-    #: (parent file, index of the sheet symbol in it) -> child key in ``sheets`` or None
-    children: dict[tuple[str, int], str | None] = field(default_factory=dict)
-    problems: list[SchemcheckError] = field(default_factory=list)
-
-    @property
-    def project_name(self) -> str:
-        return os.path.splitext(os.path.basename(self.root))[0]
+from schemcheck.errors import DesignError, ParseError, SchemcheckError
+from schemcheck.io import sexpr
+from schemcheck.io.files import read_text
+from schemcheck.drawing import Design
+from schemcheck.io.kicad_sch import read_sheet
 
 
 def _key(path: str) -> str:

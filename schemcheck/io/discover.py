@@ -10,7 +10,7 @@ import os
 import re
 from dataclasses import dataclass
 
-from ..errors import ParseError
+from schemcheck.errors import ParseError
 
 _SHEETFILE = re.compile(rb'\(property\s+"Sheet ?file"\s+"((?:[^"\\]|\\.)*)"')
 DESIGN_SUFFIXES = (".kicad_sch", ".net", ".xml")

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import os
 
-from ..errors import ParseError
+from schemcheck.errors import ParseError
 
 #: Larger than any real schematic (the biggest seen is a few MB).
 MAX_FILE_BYTES = 64 * 1024 * 1024

@@ -2,7 +2,7 @@
 
 Works straight on the tree from :mod:`schemcheck.io.sexpr` rather than on kiutils
 objects: building kiutils' objects costs more than the whole connectivity pass
-(measured in ``bench/bench_netlist.py``), and kiutils 1.4.8 drops things this reader
+(measured in ``benchmarks/bench_netlist.py``), and kiutils 1.4.8 drops things this reader
 needs: KiCad 9's ``(hide yes)`` on pins, ``exclude_from_sim``, body style (``convert`` /
 ``body_style``), sheet-level ``dnp``, stacked pins with one number, ``lib_name``.
 
@@ -16,107 +16,12 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
-from ..errors import ParseError
-from . import sexpr
-
-Point = tuple[int, int]
-SCALE = 10_000  # coordinate units per millimetre
-
-
-@dataclass(slots=True)
-class LibPin:
-    number: str
-    name: str
-    electrical_type: str
-    x: float  # library coordinates, millimetres, Y up
-    y: float
-    unit: int
-    body_style: int
-    hidden: bool
-
-
-@dataclass(slots=True)
-class LibSymbol:
-    name: str
-    pins: list[LibPin]
-    is_power: bool = False
-    power_scope: str = "global"
-    description: str = ""
-    keywords: str = ""
-    unit_count: int = 1
-
-
-@dataclass(slots=True)
-class Instance:
-    project: str
-    path: str
-    reference: str
-    unit: int | None
-
-
-@dataclass(slots=True)
-class PlacedSymbol:
-    lib_id: str
-    lib_name: str
-    x: float
-    y: float
-    angle: float
-    mirror: str
-    unit: int
-    body_style: int
-    dnp: bool
-    exclude_from_sim: bool
-    in_bom: bool
-    uuid: str
-    properties: dict[str, str]
-    instances: list[Instance]
-    index: int  # position in the file's top-level list, to locate errors
-
-
-@dataclass(slots=True)
-class SheetPin:
-    name: str
-    point: Point
-
-
-@dataclass(slots=True)
-class SheetSymbol:
-    uuid: str
-    name: str
-    file: str
-    pins: list[SheetPin]
-    dnp: bool
-    exclude_from_sim: bool
-    index: int
-
-
-@dataclass(slots=True)
-class Label:
-    kind: str  # "label", "global_label", "hierarchical_label"
-    name: str
-    point: Point
-
-
-@dataclass(slots=True)
-class SheetFile:
-    """Everything connectivity needs from one sheet file."""
-
-    path: str
-    version: int | None
-    generator: str
-    generator_version: str
-    uuid: str
-    lib_symbols: dict[str, LibSymbol]
-    symbols: list[PlacedSymbol]
-    wires: list[tuple[Point, Point]]
-    junctions: list[Point]
-    no_connects: list[Point]
-    labels: list[Label]
-    sheets: list[SheetSymbol]
-    #: KiCad 6 root files only: instance path -> (reference, unit, value, footprint)
-    symbol_instances: dict[str, tuple[str, int | None, str, str]] = field(default_factory=dict)
-    text: str = ""
-
+from schemcheck.errors import ParseError
+from schemcheck.drawing import (
+    SCALE, Instance, Label, LibPin, LibSymbol, PlacedSymbol, Point, SheetFile, SheetPin,
+    SheetSymbol, grid_point, pin_point,
+)
+from schemcheck.io import sexpr
 
 class _Bad(Exception):
     """Internal: a bad value at a tree path; turned into a located ParseError."""
@@ -150,7 +55,7 @@ def _yes(node: list[Any]) -> bool:
 
 
 def _key(x: float, y: float) -> Point:
-    return (round(x * SCALE), round(y * SCALE))
+    return grid_point(x, y)
 
 
 def _at(node: list[Any], path: tuple[int, ...]) -> tuple[float, float, float]:
@@ -185,7 +90,7 @@ def read_sheet(text: str, file: str) -> SheetFile:
     Raises :class:`ParseError` with file, line and column for malformed input.
     """
     # No connectivity rule reads what only draws; leaving it out saves about half of
-    # the tokens (bench/bench_netlist.py).
+    # the tokens (benchmarks/bench_netlist.py).
     tree = sexpr.parse(text, file=file, drop_cosmetic=True)
     if not tree or tree[0] != "kicad_sch":
         head = tree[0] if tree and not isinstance(tree[0], list) else "(...)"
@@ -410,31 +315,3 @@ def _sheet_symbol(item: list[Any], path: tuple[int, ...]) -> SheetSymbol:
         raise _Bad(path, "expected a 'Sheetfile' property naming the child sheet file "
                          "in '(sheet ...)'")
     return SheetSymbol(uuid, name or file, file, pins, dnp, exclude, path[0])
-
-
-def pin_point(symbol: PlacedSymbol, pin: LibPin) -> Point:
-    """Sheet position of ``pin`` on ``symbol``.
-
-    Library Y is flipped (library Y up, sheet Y down), the result rotated by the
-    symbol's angle counter-clockwise as seen on screen, then mirrored (``x``: vertical
-    flip, ``y``: horizontal flip), then moved to the symbol's position.
-    """
-    px, py = pin.x, -pin.y
-    angle = symbol.angle % 360
-    if angle == 0:
-        rx, ry = px, py
-    elif angle == 90:
-        rx, ry = py, -px
-    elif angle == 180:
-        rx, ry = -px, -py
-    elif angle == 270:
-        rx, ry = -py, px
-    else:
-        rad = math.radians(angle)
-        c, s = math.cos(rad), math.sin(rad)
-        rx, ry = px * c + py * s, -px * s + py * c
-    if symbol.mirror == "x":
-        ry = -ry
-    elif symbol.mirror == "y":
-        rx = -rx
-    return _key(symbol.x + rx, symbol.y + ry)

@@ -17,9 +17,9 @@ import re
 from dataclasses import dataclass, field
 from typing import Any
 
-from ..errors import ParseError
-from ..model import Net, Netlist, Node, Part, Pin, natural_key as _natural
-from . import sexpr
+from schemcheck.errors import ParseError
+from schemcheck.model import Net, Netlist, Node, Part, Pin, natural_key as _natural
+from schemcheck.io import sexpr
 
 #: Net names that are supply rails when a netlist does not say which nets came from
 #: power symbols (common practice in KiCad's power library names).

@@ -24,9 +24,9 @@ import os
 import tomllib
 from typing import Any
 
-from ..errors import ParseError
-from ..params import ParameterError, from_library
-from .files import read_text
+from schemcheck.errors import ParseError
+from schemcheck.engine.params import ParameterError, from_library
+from schemcheck.io.files import read_text
 
 _ENTRY_KEYS = {"aliases", "input", "vos", "ib", "ios", "tcvos", "ib_hot", "ios_hot", "t_hot",
                "aol", "ib_either_sign", "description", "rule", "measured"}

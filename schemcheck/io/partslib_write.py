@@ -8,9 +8,9 @@ import os
 
 import tomlkit
 
-from ..errors import ParseError
-from ..units import format_si
-from .files import read_text, write_text
+from schemcheck.errors import ParseError
+from schemcheck.units import format_si
+from schemcheck.io.files import read_text, write_text
 
 
 def _value(value: float, unit: str) -> str:

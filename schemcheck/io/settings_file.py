@@ -20,11 +20,11 @@ import tomllib
 from dataclasses import replace
 from typing import Any
 
-from ..checks import RULES
-from ..errors import ParseError
-from ..settings import Settings
-from ..units import ValueFormatError, parse_quantity, parse_resistance, parse_tolerance
-from .files import read_text
+from schemcheck.rules import RULES
+from schemcheck.errors import ParseError
+from schemcheck.run.settings import Settings
+from schemcheck.units import ValueFormatError, parse_quantity, parse_resistance, parse_tolerance
+from schemcheck.io.files import read_text
 
 SETTINGS_NAME = "schemcheck.toml"
 _KEYS = ("temperature_range", "default_budget", "default_tolerance", "parts_library",

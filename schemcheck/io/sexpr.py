@@ -13,7 +13,7 @@ trees can be handed to kiutils' ``from_sexpr`` unchanged:
 
 Two paths give the same tree. The fast path tokenizes with one group-free regex and
 classifies each token by its first character (about 5x kiutils' speed, see
-``bench/bench_netlist.py``). It bails out to the exact path, a restatement of kiutils'
+``benchmarks/bench_netlist.py``). It bails out to the exact path, a restatement of kiutils'
 grammar, on anything where the two could differ (a ``^`` anywhere, a quote that does not
 close a string, unbalanced brackets, and in compat mode an escaped backslash). The exact
 path also produces the error messages.
@@ -30,7 +30,7 @@ import re
 from contextlib import contextmanager
 from typing import Any, Iterator
 
-from ..errors import ParseError
+from schemcheck.errors import ParseError
 
 #: kiutils 1.4.8's ``term_regex``, written without verbose mode.
 _KIUTILS_TOKEN = re.compile(

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from ..units import format_si
+from schemcheck.units import format_si
 
 
 def _v(value: float | None) -> str:

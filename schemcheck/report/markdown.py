@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from ..units import format_si
+from schemcheck.units import format_si
 
 _ICON = {"error": "**error**", "warning": "warning", "info": "info"}
 

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from ..model import Netlist
+from schemcheck.model import Netlist
 
 
 def netlist_text(netlist: Netlist) -> str:

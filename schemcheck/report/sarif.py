@@ -5,7 +5,7 @@ from __future__ import annotations
 import os
 from typing import Any
 
-from ..checks import RULES
+from schemcheck.rules import RULES
 
 SARIF_SCHEMA = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/sarif-schema-2.1.0.json"
 _LEVEL = {"error": "error", "warning": "warning", "info": "note"}
@@ -22,12 +22,12 @@ def _uri(path: str, base: str | None) -> str:
 
 def sarif(report: dict[str, Any], base: str | None = None) -> dict[str, Any]:
     """The SARIF log of ``report``; artifact URIs relative to ``base`` when given."""
-    descriptions = RULES
-    rule_ids = list(descriptions)
-    rules = [{"id": rule, "name": rule.title().replace("-", ""),
-              "shortDescription": {"text": text.split(":")[0].split(".")[0]},
-              "fullDescription": {"text": text},
-              "help": {"text": text}} for rule, text in descriptions.items()]
+    rule_ids = list(RULES)
+    rules = [{"id": r.id, "name": r.id.title().replace("-", ""),
+              "shortDescription": {"text": r.title},
+              "fullDescription": {"text": r.help},
+              "help": {"text": f"{r.help} {r.rationale}"},
+              "defaultConfiguration": {"level": _LEVEL[r.severity]}} for r in RULES.values()]
     results = []
     for design in report["designs"]:
         for f in design["findings"]:

@@ -6,7 +6,7 @@ composite/other: judged from what is wired to the two inputs and the feedback pa
 
 from __future__ import annotations
 
-from .network import Network
+from schemcheck.engine.network import Network
 
 
 def label(network: Network, k: int, status: str) -> str:

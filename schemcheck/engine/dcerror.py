@@ -23,7 +23,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .network import Network
+from schemcheck.engine.network import Network
 
 SOURCES = ("vos", "ib_plus", "ib_minus")
 

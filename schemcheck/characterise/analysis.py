@@ -83,7 +83,7 @@ def extract(r: Reading) -> Extracted:
 
 
 def _ohms(value: float) -> str:
-    from .units import format_si
+    from schemcheck.units import format_si
 
     return format_si(value, "Ω")
 

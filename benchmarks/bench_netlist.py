@@ -21,7 +21,7 @@ from kiutils.schematic import Schematic
 from kiutils.utils.sexpr import parse_sexp
 
 from schemcheck.io import sexpr
-from schemcheck.io.loader import load_netlist
+from schemcheck.circuit.load import load_netlist
 
 
 def main() -> None:

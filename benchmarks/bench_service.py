@@ -20,7 +20,7 @@ from pathlib import Path
 
 from _common import ROOT
 
-from schemcheck.batch import audit_paths
+from schemcheck.run.batch import audit_paths
 
 spec = importlib.util.spec_from_file_location("action", ROOT / "scripts" / "schemcheck_action.py")
 action = importlib.util.module_from_spec(spec)

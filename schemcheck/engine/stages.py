@@ -22,7 +22,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
-from .model import Part, Pin
+from schemcheck.model import Part, Pin
 
 _PLUS = re.compile(r"^(?:\+|IN\+|\+IN|INP|NI|NON[-_]?INV|V?IN_?P|IN\s*\+|\+\s*IN)$", re.I)
 _MINUS = re.compile(r"^(?:-|IN-|-IN|INN|INM|INV|V?IN_?N|IN\s*-|-\s*IN)$", re.I)

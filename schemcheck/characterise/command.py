@@ -6,8 +6,8 @@ from __future__ import annotations
 import os
 from typing import Any
 
-from .characterise import RULE, check, extract, library_values, summarise
-from .io.bench_csv import read_bench_csv
+from schemcheck.characterise.analysis import RULE, check, extract, library_values, summarise
+from schemcheck.io.bench_csv import read_bench_csv
 
 
 def characterise_file(path: str, *, parts: str | None = None, part: str | None = None,
@@ -33,7 +33,7 @@ def characterise_file(path: str, *, parts: str | None = None, part: str | None =
 
 def _update_library(csv_path: str, parts: str, part: str, results, failed: bool,
                     dry_run: bool, skip_bad_rows: bool) -> dict[str, Any]:
-    from .io.partslib_write import diff, updated_library, write_library
+    from schemcheck.io.partslib_write import diff, updated_library, write_library
 
     info: dict[str, Any] = {"path": parts, "part": part, "written": False, "rule": RULE}
     if not results:
@@ -57,7 +57,7 @@ def _update_library(csv_path: str, parts: str, part: str, results, failed: bool,
 
 
 def bench_text(report: dict[str, Any]) -> str:
-    from .units import format_si
+    from schemcheck.units import format_si
 
     lines = [f"measurements: {report['file']}", "",
              f"  {'sample':<10} {'temp °C':>8} {'Vos':>11} {'Ib+':>11} {'Ib-':>11} "

@@ -15,8 +15,8 @@ from pathlib import Path
 
 from _common import best_of, stage_sheet
 
-from schemcheck.io.loader import load_netlist
-from schemcheck.batch import audit_paths
+from schemcheck.circuit.load import load_netlist
+from schemcheck.run.batch import audit_paths
 
 
 def main() -> None:

@@ -17,8 +17,8 @@ from pathlib import Path
 
 from _common import stage
 
-from schemcheck.batch import audit_paths
-from schemcheck.cache import ResultCache
+from schemcheck.run.batch import audit_paths
+from schemcheck.run.cache import ResultCache
 from tests.synth import Sheet
 
 DESIGNS = 60

@@ -20,9 +20,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .dcerror import Solution
-from .network import Network
-from .params import AtTemperature, OpampParams, at_temperature
+from schemcheck.engine.dcerror import Solution
+from schemcheck.engine.network import Network
+from schemcheck.engine.params import AtTemperature, OpampParams, at_temperature
 
 MC_PERCENTILE = 99.7
 

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from typing import Any
 
-from .errors import ParseError
-from .units import ValueFormatError, parse_quantity, parse_temperature_range
+from schemcheck.errors import ParseError
+from schemcheck.units import ValueFormatError, parse_quantity, parse_temperature_range
 
 
 def options_to_overrides(*, temp: str | None = None, parts: str | None = None,

@@ -18,8 +18,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
-from .model import Part
-from .units import ValueFormatError, parse_gain, parse_quantity
+from schemcheck.model import Part
+from schemcheck.units import ValueFormatError, parse_gain, parse_quantity
 
 FET_INPUTS = ("jfet", "cmos", "fet", "mosfet")
 INPUT_TYPES = ("bipolar", "jfet", "cmos")

@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
-from ..model import Finding
-from ..units import format_si
-from .context import StageContext
+from schemcheck.model import Finding
+from schemcheck.units import format_si
+from schemcheck.checks.context import StageContext
 
 
 def check_budget(ctx: StageContext) -> list[Finding]:

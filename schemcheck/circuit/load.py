@@ -5,10 +5,10 @@ from __future__ import annotations
 import dataclasses
 import os
 
-from ..errors import ParseError
-from ..model import Netlist
-from .files import decode, read_bytes
-from .sexpr import collector_paused
+from schemcheck.errors import ParseError
+from schemcheck.model import Netlist
+from schemcheck.io.files import decode, read_bytes
+from schemcheck.io.sexpr import collector_paused
 
 #: What a file starts with -> its kind.
 _SIGNATURES = (("(kicad_sch", "kicad_sch"), ("(export", "kicad_net"), ("<", "kicad_xml"))
@@ -38,8 +38,8 @@ def _load(name: str) -> Netlist:
     text = decode(data, name)
     kind = sniff(text)
     if kind == "kicad_sch":
-        from ..connectivity import build_netlist
-        from .design import check_cycles, load_design
+        from schemcheck.circuit.connectivity import build_netlist
+        from schemcheck.io.design import check_cycles, load_design
 
         design = load_design(name, text)
         check_cycles(design)
@@ -49,11 +49,11 @@ def _load(name: str) -> Netlist:
                 netlist, errors=tuple(str(p) for p in design.problems))
         return netlist
     if kind == "kicad_net":
-        from .netlist import read_sexpr_netlist
+        from schemcheck.io.netlist import read_sexpr_netlist
 
         return read_sexpr_netlist(text, name)
     if kind == "kicad_xml":
-        from .netlist import read_xml_netlist
+        from schemcheck.io.netlist import read_xml_netlist
 
         return read_xml_netlist(data, name)
     first = text.lstrip().split("\n", 1)[0][:40]

@@ -15,8 +15,8 @@ import sqlite3
 import time
 from typing import Any
 
-from . import __version__
-from .errors import SchemcheckError
+from schemcheck import __version__
+from schemcheck.errors import SchemcheckError
 
 APP = "schemcheck-results"
 SCHEMA = 1

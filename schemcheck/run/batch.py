@@ -13,11 +13,11 @@ from concurrent.futures import ProcessPoolExecutor
 from dataclasses import replace
 from typing import Any, Callable
 
-from . import __version__
-from .audit import CAUTION
-from .errors import SchemcheckError
-from .io.discover import DesignRef, find_designs
-from .settings import Settings
+from schemcheck import __version__
+from schemcheck.audit import CAUTION
+from schemcheck.errors import SchemcheckError
+from schemcheck.io.discover import DesignRef, find_designs
+from schemcheck.run.settings import Settings
 
 UNREADABLE = "unreadable-design"
 
@@ -25,7 +25,7 @@ UNREADABLE = "unreadable-design"
 def settings_for(root: str, base: Settings, overrides: dict[str, Any],
                  settings_path: str | None = None) -> Settings:
     """Defaults < the settings file beside the design (or ``settings_path``) < options."""
-    from .io.settings_file import find_settings, load_settings
+    from schemcheck.io.settings_file import find_settings, load_settings
 
     path = settings_path or find_settings(root)
     settings = load_settings(path, base) if path else base
@@ -36,7 +36,7 @@ def settings_for(root: str, base: Settings, overrides: dict[str, Any],
 def design_key_for(design: DesignRef, settings: Settings) -> str | None:
     """The results-store key of ``design`` audited with ``settings`` (None when a file
     cannot be read: such a design is audited, and reported, without the store)."""
-    from .cache import design_key
+    from schemcheck.run.cache import design_key
 
     try:
         return design_key(design.files, settings.describe(), settings.parts_library)
@@ -71,9 +71,9 @@ _LIBRARIES: dict[str, tuple[float, dict]] = {}
 
 def audit_one(root: str, settings: Settings) -> dict[str, Any]:
     """Audit one design; any error of ours becomes an unreadable-design result."""
-    from .audit import audit_netlist
-    from .io.loader import load_netlist
-    from .io.partslib import load_parts_library
+    from schemcheck.audit import audit_netlist
+    from schemcheck.circuit.load import load_netlist
+    from schemcheck.io.partslib import load_parts_library
 
     try:
         library: dict = {}

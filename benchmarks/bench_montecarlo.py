@@ -13,11 +13,11 @@ from __future__ import annotations
 import numpy as np
 from _common import best_of
 
-from schemcheck.budget import monte_carlo
-from schemcheck.dcerror import solve
-from schemcheck.network import build_network
-from schemcheck.params import resolve
-from schemcheck.stages import recognise
+from schemcheck.engine.budget import monte_carlo
+from schemcheck.engine.dcerror import solve
+from schemcheck.engine.network import build_network
+from schemcheck.engine.params import resolve
+from schemcheck.engine.stages import recognise
 from tests.circuits import circuit
 
 SAMPLES = 100_000

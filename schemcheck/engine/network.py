@@ -18,9 +18,9 @@ import re
 from dataclasses import dataclass, field
 from functools import lru_cache
 
-from .model import Netlist, Part, natural_key
-from .stages import OpampUnit, SkippedAmplifier
-from .units import ValueFormatError, parse_resistance, parse_tolerance
+from schemcheck.model import Netlist, Part, natural_key
+from schemcheck.engine.stages import OpampUnit, SkippedAmplifier
+from schemcheck.units import ValueFormatError, parse_resistance, parse_tolerance
 
 _CAPACITOR = re.compile(r"^(?:C|CP|C_.*|CP_.*|Capacitor.*)$", re.I)
 _RESISTOR = re.compile(r"^(?:R|R_.*|Resistor.*)$", re.I)

@@ -1,0 +1,66 @@
+"""The rule registry: every rule's id, default severity, title, help and rationale.
+
+One list used by the audit, settings validation (``rules_off``), SARIF rule metadata, the
+Markdown checklist and the README's rule table (``tests/test_rules.py`` compares them).
+Adding a rule: one module under :mod:`schemcheck.checks` and one entry here. Rule ids are
+part of the interface: users' scripts and settings files name them. Imports nothing of ours.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+SEVERITIES = ("info", "warning", "error")
+
+
+@dataclass(frozen=True, slots=True)
+class Rule:
+    """One rule: ``severity`` is the default; a finding may be raised lower (never higher)."""
+
+    id: str
+    severity: str
+    title: str
+    help: str
+    rationale: str
+
+
+_RULES = (
+    Rule("no-bias-path", "error", "Input with no DC path for its bias current",
+         "An op-amp input whose bias current has no DC path (reached only through capacitors "
+         "or nothing): its output has no defined DC level.",
+         "The bias current charges whatever sits on the input until the output rails."),
+    Rule("no-dc-feedback", "error", "No DC feedback",
+         "No DC path from the output back to the inverting input (an integrator without a DC "
+         "feedback resistor): the DC gain is unbounded.",
+         "Vos and Ib are integrated with no bound: the output drifts to a rail."),
+    Rule("bias-resistor-mismatch", "warning", "Inputs see different DC resistances",
+         "The resistance the + input sees differs from what the - input sees, so the bias "
+         "currents leave an Ib x R error; or adding a compensation resistor would cut the "
+         "error by more than half.",
+         "On bipolar inputs with matched bias currents, equal resistances cancel Ib down to "
+         "Ios x R (common practice)."),
+    Rule("bias-resistor-harmful", "warning", "Compensation resistor that adds error",
+         "A bias-compensation resistor on an op-amp whose bias currents are not matched "
+         "(FET/CMOS inputs, internally bias-cancelled parts): it cancels nothing and adds "
+         "error.",
+         "Cancellation needs Ib+ and Ib- of one sign and size; otherwise the resistor only "
+         "adds its own Ib x R term and noise."),
+    Rule("missing-parameters", "warning", "Op-amp with no DC parameters",
+         "No Vos, Ib or Ios for an op-amp from its fields or the parts library: its error is "
+         "unknown.",
+         "Without the part's figures the stage's error cannot be budgeted."),
+    Rule("over-budget", "error", "Stage over its DC error budget",
+         "The worst-case output error over the temperature range exceeds the stage's budget.",
+         "The budget is what the next stage or converter tolerates at this output."),
+    Rule("unreadable-design", "error", "Design file that could not be read",
+         "A design file could not be read: a malformed or unsupported file, or a missing "
+         "child sheet; the rest of the batch is still audited.",
+         "A design the tool cannot read has not been checked at all."),
+)
+
+RULES: dict[str, Rule] = {rule.id: rule for rule in _RULES}
+
+
+def rule(rule_id: str) -> Rule:
+    """The registered rule ``rule_id``; KeyError names an id nobody registered."""
+    return RULES[rule_id]
