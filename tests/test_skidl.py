@@ -13,7 +13,18 @@ from schemcheck.circuit.load import load_netlist
 
 from .conftest import FIXTURES
 
-skidl = pytest.importorskip("skidl")
+
+
+@pytest.fixture(scope="module")
+def skidl(tmp_path_factory):
+    """skidl, imported inside a temporary folder: importing it writes log files into the
+    current folder, which must not be the working tree."""
+    here = os.getcwd()
+    os.chdir(tmp_path_factory.mktemp("skidl"))
+    try:
+        return pytest.importorskip("skidl")
+    finally:
+        os.chdir(here)
 
 
 def _circuit_two_stage(s):
@@ -49,19 +60,20 @@ def _circuit_ladder(s):
 class _In:
     """Net and Part constructors bound to one skidl circuit."""
 
-    def __init__(self, circuit):
+    def __init__(self, skidl, circuit):
+        self.skidl = skidl
         self.circuit = circuit
 
     def Net(self, name):  # noqa: N802 - mirrors skidl's names
-        return skidl.Net(name, circuit=self.circuit)
+        return self.skidl.Net(name, circuit=self.circuit)
 
     def Part(self, lib, name, **kw):  # noqa: N802
-        return skidl.Part(lib, name, circuit=self.circuit, **kw)
+        return self.skidl.Part(lib, name, circuit=self.circuit, **kw)
 
 
 @pytest.mark.parametrize("build", [_circuit_two_stage, _circuit_ladder],
                          ids=["two-stage", "ladder"])
-def test_skidl_schematic_nets(build, tmp_path, monkeypatch):
+def test_skidl_schematic_nets(skidl, build, tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
     logging.getLogger("skidl").setLevel(logging.ERROR)
     tool = skidl.KICAD8
@@ -71,7 +83,7 @@ def test_skidl_schematic_nets(build, tmp_path, monkeypatch):
     if library not in paths:
         paths.append(library)
     circuit = skidl.Circuit()
-    build(_In(circuit))
+    build(_In(skidl, circuit))
     circuit.generate_schematic(filepath=os.fspath(tmp_path), top_name="net_check", tool=tool,
                                mode="labels")
     expected = {}
