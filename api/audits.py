@@ -116,6 +116,18 @@ def get_checklist(audit_id: str):
     return Response(checklist(_record(audit_id)["result"]), mimetype="text/markdown")
 
 
+@bp.get("/v1/audits/<audit_id>/report.<suffix>")
+def get_report(audit_id: str, suffix: str):
+    from schemcheck.report.formats import BY_SUFFIX
+
+    output = BY_SUFFIX.get(suffix)
+    if output is None:
+        raise Problem(404, "Not found", f"no report format {suffix!r} (one of: "
+                      f"{', '.join(sorted(BY_SUFFIX))})")
+    return Response(output.render(_record(audit_id)["result"], None),
+                    mimetype=output.media_type)
+
+
 @bp.get("/v1/audits/<audit_id>/sarif")
 def get_sarif(audit_id: str):
     from schemcheck.report.sarif import sarif

@@ -66,6 +66,17 @@ def build_spec() -> APISpec:
                               "content": {"application/sarif+json": {"schema": {
                                   "type": "object"}}}},
                       **_problems(401, 404)}}})
+    from schemcheck.report.formats import FORMATS
+
+    suffix = {"name": "suffix", "in": "path", "required": True,
+              "schema": {"type": "string", "enum": [f.suffix for f in FORMATS.values()]}}
+    spec.path(path="/v1/audits/{audit_id}/report.{suffix}", operations={"get": {
+        "summary": "One audit in any output format: "
+                   + "; ".join(f"{f.suffix}: {f.description}" for f in FORMATS.values()),
+        "parameters": [audit_id, suffix],
+        "responses": {"200": {"description": "The report", "content": {
+            f.media_type.split(";")[0]: {"schema": {"type": "string"}}
+            for f in FORMATS.values()}}, **_problems(401, 404)}}})
     spec.path(path="/v1/health", operations={"get": {
         "summary": "Is the service up", "responses": {"200": {
             "description": "Up", "content": {"application/json": {"schema": "Health"}}},

@@ -1,5 +1,8 @@
-"""marshmallow schemas of every request and response. The CLI's audit JSON is dumped
-through :class:`ReportSchema` too: one definition of the shape, used by both."""
+"""marshmallow schemas of every request and response.
+
+The report schemas describe the library's results model (:mod:`schemcheck.results`),
+field for field (``tests/test_results.py`` proves they agree); the library serialises the
+model itself and never imports this package."""
 
 from __future__ import annotations
 
@@ -21,6 +24,8 @@ class FindingSchema(Schema):
     suggestion = fields.String()
     sheet = fields.String()
     file = fields.String()
+    data = fields.Dict(keys=fields.String(), values=fields.Raw(allow_none=True),
+                       metadata={"description": "The finding's numbers, SI units"})
 
 
 class SensitivitySchema(Schema):

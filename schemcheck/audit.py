@@ -6,7 +6,7 @@ caller does the I/O.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import replace
 from typing import Any, Mapping
 
 from schemcheck import checks
@@ -14,32 +14,18 @@ from schemcheck.engine.budget import StageBudget, monte_carlo, stage_budget
 from schemcheck.checks.context import StageContext
 from schemcheck.engine.dcerror import Solution, solve
 from schemcheck.model import Finding, Netlist, natural_key
+from schemcheck.results import (
+    CAUTION, Contributor, DesignResult, NotAnalysed, ParamsUsed, Sensitivity, StageResult,
+)
 from schemcheck.engine.network import Network, build_network
 from schemcheck.engine.params import OpampParams, ParameterError, resolve
-from schemcheck.run.settings import Settings
+from schemcheck.settings import Settings
 from schemcheck.engine.stages import recognise
 from schemcheck.engine.topology import label
 from schemcheck.units import ValueFormatError, parse_quantity
 
-CAUTION = ("These figures come from the schematic as drawn and the part data given; they "
-           "do not replace a review by a qualified engineer or the applicable standards.")
-
-
-@dataclass(slots=True)
-class DesignAudit:
-    file: str
-    stages: list[dict[str, Any]] = field(default_factory=list)
-    findings: list[Finding] = field(default_factory=list)
-    assumptions: list[str] = field(default_factory=list)
-    not_analysed: list[dict[str, Any]] = field(default_factory=list)
-    settings: dict[str, Any] = field(default_factory=dict)
-    errors: list[str] = field(default_factory=list)
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"file": self.file, "stages": self.stages,
-                "findings": [f.to_dict() for f in self.findings],
-                "assumptions": self.assumptions, "not_analysed": self.not_analysed,
-                "settings": self.settings, "errors": self.errors, "caution": CAUTION}
+#: The audit's result for one design (the name the library has always used).
+DesignAudit = DesignResult
 
 
 def _budget_limit(netlist_part, settings: Settings, problems: list[str]) -> float | None:
@@ -54,23 +40,22 @@ def _budget_limit(netlist_part, settings: Settings, problems: list[str]) -> floa
 
 
 def audit_netlist(netlist: Netlist, settings: Settings,
-                  library: Mapping[str, Mapping[str, Any]] | None = None) -> DesignAudit:
+                  library: Mapping[str, Mapping[str, Any]] | None = None) -> DesignResult:
     """Audit every op-amp stage of ``netlist``."""
     library = library or {}
-    result = DesignAudit(file=netlist.source, settings=settings.describe(),
+    result = DesignResult(file=netlist.source, settings=settings.describe(),
                          errors=list(netlist.errors))
     units, skipped = recognise(netlist.parts)
     for s in skipped:
-        result.not_analysed.append({"ref": s.part.ref, "unit": s.part.unit, "sheet": s.part.sheet,
-                                    "value": s.part.value, "reason": s.reason})
+        result.not_analysed.append(NotAnalysed(s.part.ref, s.part.unit, s.part.sheet,
+                                               s.part.value, s.reason))
     network = build_network(netlist, units, skipped,
                             default_tolerance=settings.default_tolerance,
                             source_resistance=settings.source_resistance)
     for unit in network.unused:
-        result.not_analysed.append({"ref": unit.part.ref, "unit": unit.part.unit,
-                                    "sheet": unit.part.sheet, "value": unit.part.value,
-                                    "reason": "unused amplifier (inputs tied to rails or open, "
-                                              "output not connected)"})
+        result.not_analysed.append(NotAnalysed(
+            unit.part.ref, unit.part.unit, unit.part.sheet, unit.part.value,
+            "unused amplifier (inputs tied to rails or open, output not connected)"))
     problems = list(network.problems)
     params: list[OpampParams] = []
     for op in network.opamps:
@@ -99,7 +84,7 @@ def audit_netlist(netlist: Netlist, settings: Settings,
                   for op in network.opamps}
     result.findings = [replace(f, file=sheet_file.get((f.ref, f.unit)) or netlist.source)
                        for f in findings if f.rule not in settings.disabled_rules]
-    result.stages = [_stage_dict(network, solution, params, budgets, mc, limits, k)
+    result.stages = [_stage_result(network, solution, params, budgets, mc, limits, k)
                      for k in range(len(network.opamps))]
     result.assumptions = _assumptions(network, solution, settings, params) + [
         f"problem: {p}" for p in problems]
@@ -109,16 +94,16 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     return result
 
 
-def _params_dict(p: OpampParams) -> dict[str, Any]:
-    return {"vos": p.vos, "ib": p.ib, "ios": p.ios, "tcvos": p.tcvos, "ib_hot": p.ib_hot,
-            "ios_hot": p.ios_hot, "t_hot": p.t_hot, "input": p.input_type, "aol": p.aol,
-            "ib_either_sign": p.ib_either_sign, "typical": dict(p.typical),
-            "library_entry": p.library_entry, "source": dict(p.source)}
+def _params_used(p: OpampParams) -> ParamsUsed:
+    return ParamsUsed(vos=p.vos, ib=p.ib, ios=p.ios, tcvos=p.tcvos, ib_hot=p.ib_hot,
+                      ios_hot=p.ios_hot, t_hot=p.t_hot, input=p.input_type, aol=p.aol,
+                      ib_either_sign=p.ib_either_sign, typical=dict(p.typical),
+                      library_entry=p.library_entry, source=dict(p.source))
 
 
-def _stage_dict(network: Network, solution: Solution, params: list[OpampParams],
-                budgets: list[StageBudget], mc: dict[int, float | None],
-                limits: list[float | None], k: int) -> dict[str, Any]:
+def _stage_result(network: Network, solution: Solution, params: list[OpampParams],
+                  budgets: list[StageBudget], mc: dict[int, float | None],
+                  limits: list[float | None], k: int) -> StageResult:
     op = network.opamps[k]
     part = op.unit.part
     status = solution.status[k]
@@ -127,31 +112,31 @@ def _stage_dict(network: Network, solution: Solution, params: list[OpampParams],
     noise_gain = own["vos"] if own else None
     worst = budget.worst_case_over_temp_v
     limit = limits[k]
-    contributors = [{"ref": network.opamps[c["opamp"]].unit.part.ref,
-                     "unit": network.opamps[c["opamp"]].unit.part.unit,
-                     "worst_case_v": c["worst_case_v"]} for c in budget.contributors]
-    return {
-        "ref": part.ref, "unit": part.unit, "channel": op.unit.channel, "sheet": part.sheet,
-        "value": part.value, "topology": label(network, k, status), "status": status,
-        "nets": {"plus": op.plus, "minus": op.minus, "out": op.out},
-        "noise_gain": noise_gain,
-        "sensitivity": own if own else {"vos": None, "ib_plus": None, "ib_minus": None},
-        "resistance_plus_ohm": (-own["ib_plus"] / own["vos"]) if own and own["vos"] else None,
-        "resistance_minus_ohm": (own["ib_minus"] / own["vos"]) if own and own["vos"] else None,
-        "params": _params_dict(params[k]),
-        "worst_case_own_v": budget.worst_case_own_v,
-        "worst_case_total_v": budget.worst_case_total_v,
-        "rss_own_v": budget.rss_own_v,
-        "rss_v": budget.rss_v,
-        "worst_case_over_temp_v": worst,
-        "worst_temp_c": budget.worst_temp_c,
-        "monte_carlo_v": mc.get(k),
-        "rti_v": (worst / abs(noise_gain)) if worst is not None and noise_gain else None,
-        "budget_v": limit,
-        "within_budget": (worst <= limit) if worst is not None and limit is not None else None,
-        "depends_on_undefined_output": solution.tainted[k],
-        "contributors": contributors,
-    }
+    contributors = [Contributor(network.opamps[c["opamp"]].unit.part.ref,
+                                network.opamps[c["opamp"]].unit.part.unit, c["worst_case_v"])
+                    for c in budget.contributors]
+    return StageResult(
+        ref=part.ref, unit=part.unit, channel=op.unit.channel, sheet=part.sheet,
+        value=part.value, topology=label(network, k, status), status=status,
+        nets={"plus": op.plus, "minus": op.minus, "out": op.out},
+        noise_gain=noise_gain,
+        sensitivity=Sensitivity(**own) if own else Sensitivity(),
+        resistance_plus_ohm=(-own["ib_plus"] / own["vos"]) if own and own["vos"] else None,
+        resistance_minus_ohm=(own["ib_minus"] / own["vos"]) if own and own["vos"] else None,
+        params=_params_used(params[k]),
+        worst_case_own_v=budget.worst_case_own_v,
+        worst_case_total_v=budget.worst_case_total_v,
+        rss_own_v=budget.rss_own_v,
+        rss_v=budget.rss_v,
+        worst_case_over_temp_v=worst,
+        worst_temp_c=budget.worst_temp_c,
+        monte_carlo_v=mc.get(k),
+        rti_v=(worst / abs(noise_gain)) if worst is not None and noise_gain else None,
+        budget_v=limit,
+        within_budget=(worst <= limit) if worst is not None and limit is not None else None,
+        depends_on_undefined_output=solution.tainted[k],
+        contributors=contributors,
+    )
 
 
 def _assumptions(network: Network, solution: Solution, settings: Settings,

@@ -11,6 +11,7 @@ import click
 
 from schemcheck import __version__
 from schemcheck.errors import SchemcheckError
+from schemcheck.report.formats import FORMATS
 
 EXIT_FINDINGS = 1
 EXIT_BAD_INPUT = 2
@@ -41,8 +42,10 @@ def _json(data: Any) -> str:
     encoder) when piped to a program."""
     import json
 
+    from schemcheck.report.json import to_data
+
     indent = 2 if sys.stdout.isatty() else None
-    return json.dumps(data, indent=indent, ensure_ascii=False)
+    return json.dumps(to_data(data), indent=indent, ensure_ascii=False, allow_nan=False)
 
 
 def _emit(text: str) -> None:
@@ -91,7 +94,7 @@ def netlist(path: str, fmt: str) -> None:
 
 @main.command()
 @click.argument("paths", nargs=-1, required=True, type=str)
-@_format_option(("json", "text", "markdown", "sarif"), "json")
+@_format_option(tuple(FORMATS), "json")
 @click.option("--output", "-o", "output", type=click.Path(dir_okay=False, path_type=str),
               default=None, help="Write the report to FILE instead of standard output.")
 @click.option("--temp", "temp", metavar="MIN:MAX", default=None,
@@ -165,25 +168,12 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
 
 
 def _render(report: dict[str, Any], fmt: str, output: str | None) -> str:
-    if fmt == "json":
-        from schemcheck_api.schemas import ReportSchema  # the service's definition of the shape
+    from schemcheck.report.formats import render
 
-        return _json(ReportSchema().dump(report))
-    if fmt == "text":
-        from schemcheck.report.audit_text import audit_text
-
-        return audit_text(report)
-    if fmt == "markdown":
-        from schemcheck.report.markdown import checklist
-
-        return checklist(report)
-    import json
-    import os
-
-    from schemcheck.report.sarif import sarif
-
+    if fmt == "json" and not output and not sys.stdout.isatty():
+        return _json(report)  # compact when piped to a program, as the netlist command
     base = os.path.dirname(os.path.abspath(output)) if output else os.getcwd()
-    return json.dumps(sarif(report, base), indent=2, ensure_ascii=False)
+    return render(report, fmt, base)
 
 
 @main.command()

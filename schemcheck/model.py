@@ -166,8 +166,11 @@ class Finding:
     suggestion: str = ""
     sheet: str = ""
     file: str = ""
+    #: the finding's numbers as data (SI units, key names say which: ``*_v``, ``*_ohm``,
+    #: ``*_a``), so a script need not parse the message
+    data: dict[str, Any] = field(default_factory=dict)
 
     def to_dict(self) -> dict[str, Any]:
         return {"rule": self.rule, "severity": self.severity, "ref": self.ref,
                 "unit": self.unit, "message": self.message, "suggestion": self.suggestion,
-                "sheet": self.sheet, "file": self.file}
+                "sheet": self.sheet, "file": self.file, "data": dict(self.data)}

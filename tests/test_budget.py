@@ -11,7 +11,7 @@ from __future__ import annotations
 import pytest
 
 from schemcheck.audit import audit_netlist
-from schemcheck.run.settings import Settings
+from schemcheck.settings import Settings
 
 from .circuits import circuit
 
@@ -29,13 +29,13 @@ def stage(samples, seed, lines=LINEAR):
 def test_monte_carlo_converges_to_rss_for_linear_case():
     s = stage(200_000, 7)
     # tolerance stated: 1.5 % (sampling error of a 99.7th percentile at 2e5 samples is ~0.5 %)
-    assert s["monte_carlo_v"] == pytest.approx(s["rss_v"] * Z_9985 / 3, rel=0.015)
+    assert s.monte_carlo_v == pytest.approx(s.rss_v * Z_9985 / 3, rel=0.015)
 
 
 def test_monte_carlo_is_seeded_and_reproducible():
     a, b, c = stage(20_000, 3), stage(20_000, 3), stage(20_000, 4)
-    assert a["monte_carlo_v"] == b["monte_carlo_v"]
-    assert a["monte_carlo_v"] != c["monte_carlo_v"]
+    assert a.monte_carlo_v == b.monte_carlo_v
+    assert a.monte_carlo_v != c.monte_carlo_v
 
 
 def test_resistor_tolerance_widens_the_spread():
@@ -46,8 +46,8 @@ def test_resistor_tolerance_widens_the_spread():
              "R3 p GND 9.0909k Tolerance={t}", "U1 p=p m=m out=out Vos=10uV Ib=1uA Ios=1nA")
     tight = stage(20_000, 3, tuple(line.format(t="0%") for line in lines))
     loose = stage(20_000, 3, tuple(line.format(t="5%") for line in lines))
-    assert tight["monte_carlo_v"] == pytest.approx(tight["rss_v"] * Z_9985 / 3, rel=0.05)
-    assert loose["monte_carlo_v"] > 10 * tight["monte_carlo_v"]
+    assert tight.monte_carlo_v == pytest.approx(tight.rss_v * Z_9985 / 3, rel=0.05)
+    assert loose.monte_carlo_v > 10 * tight.monte_carlo_v
 
 
 def test_rss_and_worst_case_of_one_stage():
@@ -55,6 +55,6 @@ def test_rss_and_worst_case_of_one_stage():
     # terms: 11 mV, |48.3k| * 80 nA = 3.864 mV, |(-51.7k - 100k)/2| * 10 nA = 0.7585 mV.
     s = stage(0, 1)
     terms = (11e-3, 48.3e3 * 80e-9, 75.85e3 * 10e-9)
-    assert s["worst_case_own_v"] == pytest.approx(sum(terms), rel=1e-9)
-    assert s["rss_v"] == pytest.approx(sum(t * t for t in terms) ** 0.5, rel=1e-9)
-    assert s["monte_carlo_v"] is None  # switched off with 0 samples
+    assert s.worst_case_own_v == pytest.approx(sum(terms), rel=1e-9)
+    assert s.rss_v == pytest.approx(sum(t * t for t in terms) ** 0.5, rel=1e-9)
+    assert s.monte_carlo_v is None  # switched off with 0 samples

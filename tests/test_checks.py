@@ -13,7 +13,7 @@ from __future__ import annotations
 import pytest
 
 from schemcheck.audit import audit_netlist
-from schemcheck.run.settings import Settings
+from schemcheck.settings import Settings
 
 from .circuits import circuit
 
@@ -38,23 +38,23 @@ def test_no_bias_path_through_capacitor():
                                "for its bias current: it reaches the rest of the circuit only "
                                "through C1; the output has no defined DC level")
     stage = result.stages[0]
-    assert stage["status"] == "no-bias-path" and stage["worst_case_own_v"] is None
+    assert stage.status == "no-bias-path" and stage.worst_case_own_v is None
 
 
 def test_no_dc_feedback_integrator():
     # Common practice: an integrator without a resistor across its capacitor.
     result = run("R1 GND m 10k", "C1 m out 1u", f"U1 p=GND m=m out=out {BIPOLAR}")
     assert rules(result) == [("no-dc-feedback", "error", "U1")]
-    assert result.stages[0]["topology"] == "integrator"
+    assert result.stages[0].topology == "integrator"
     assert "the feedback goes only through C1" in result.findings[0].message
 
 
 def test_dependent_stage_is_unknown_not_made_up():
     result = run("R1 GND m 10k", "C1 m o1 1u", f"U1 p=GND m=m out=o1 {BIPOLAR}",
                  "R2 o1 m2 10k", "R3 m2 o2 10k", f"U2 p=GND m=m2 out=o2 {BIPOLAR}")
-    second = next(s for s in result.stages if s["ref"] == "U2")
-    assert second["worst_case_own_v"] is not None  # its own sources are known
-    assert second["worst_case_total_v"] is None and second["depends_on_undefined_output"]
+    second = next(s for s in result.stages if s.ref == "U2")
+    assert second.worst_case_own_v is not None  # its own sources are known
+    assert second.worst_case_total_v is None and second.depends_on_undefined_output
 
 
 @pytest.mark.parametrize("stage", ["inverting", "non-inverting"])
@@ -84,7 +84,7 @@ def test_info_when_adding_compensation_halves_the_error():
     assert [(f.severity, f.suggestion) for f in info] == [
         ("info", "add 500 kΩ (E96 499 kΩ, E24 510 kΩ) in series with the + input, bypassed with "
                  "a capacitor if noise matters")]
-    assert result.stages[0]["worst_case_own_v"] == pytest.approx(0.2e-3 + 0.2 + 0.01, rel=1e-9)
+    assert result.stages[0].worst_case_own_v == pytest.approx(0.2e-3 + 0.2 + 0.01, rel=1e-9)
 
 
 def test_compensation_harmful_for_fet_input():
@@ -102,9 +102,9 @@ def test_missing_parameters_reports_sensitivities():
     result = run("R1 GND m 10k", "R2 m out 100k", "U1 p=GND m=m out=out")
     assert rules(result) == [("missing-parameters", "warning", "U1")]
     stage = result.stages[0]
-    assert stage["noise_gain"] == pytest.approx(11.0)
-    assert stage["sensitivity"]["ib_minus"] == pytest.approx(100e3)
-    assert stage["worst_case_own_v"] is None and stage["monte_carlo_v"] is None
+    assert stage.noise_gain == pytest.approx(11.0)
+    assert stage.sensitivity.ib_minus == pytest.approx(100e3)
+    assert stage.worst_case_own_v is None and stage.monte_carlo_v is None
 
 
 def test_over_budget_uses_worst_case_over_temperature():
@@ -115,10 +115,10 @@ def test_over_budget_uses_worst_case_over_temperature():
                  f"U1 p=p m=m out=out {BIPOLAR} TCVos=10uV/°C DC_Budget=15mV")
     assert rules(result) == [("over-budget", "error", "U1")]
     stage = result.stages[0]
-    assert stage["worst_temp_c"] == 70.0
-    assert stage["worst_case_over_temp_v"] == pytest.approx(15.95e-3 + 0.8e-6 + 0.99995e-3,
+    assert stage.worst_temp_c == 70.0
+    assert stage.worst_case_over_temp_v == pytest.approx(15.95e-3 + 0.8e-6 + 0.99995e-3,
                                                             rel=1e-9)
-    assert stage["within_budget"] is False
+    assert stage.within_budget is False
 
 
 def test_rules_can_be_switched_off():

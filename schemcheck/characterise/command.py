@@ -7,7 +7,7 @@ import os
 from typing import Any
 
 from schemcheck.characterise.analysis import RULE, check, extract, library_values, summarise
-from schemcheck.io.bench_csv import read_bench_csv
+from schemcheck.characterise.bench_csv import read_bench_csv
 
 
 def characterise_file(path: str, *, parts: str | None = None, part: str | None = None,

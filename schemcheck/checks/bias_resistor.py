@@ -68,7 +68,9 @@ def check_bias_resistor(ctx: StageContext) -> list[Finding]:
                 f"track, so the resistor cancels nothing and adds up to {format_si(added, 'V')} "
                 "of output error at 25 °C (Ib+ x Rp x noise gain), more when hot",
                 f"replace {comp.ref} with 0 Ω (or a wire); keep it only if it also protects the "
-                "input, and then budget its error", sheet))
+                "input, and then budget its error", sheet,
+                data={"resistor": comp.ref, "resistor_ohm": comp.ohms,
+                      "added_error_v": added}))
             continue
         worst = _worst(s_vos, s_p, s_m, vos, ib, ios)
         if r_plus > 0.01 * r_minus:
@@ -92,7 +94,10 @@ def check_bias_resistor(ctx: StageContext) -> list[Finding]:
                 "bias-resistor-mismatch", "warning", ref, unit,
                 f"{what}, but the + input sees {_ohms(r_plus)} and the - input "
                 f"{_ohms(r_minus)}: the mismatch leaves {format_si(bias_term, 'V')} of Ib error "
-                "at the output", fix, sheet))
+                "at the output", fix, sheet,
+                data={"resistance_plus_ohm": r_plus, "resistance_minus_ohm": r_minus,
+                      "bias_error_v": bias_term, "suggested_ohm": ideal,
+                      "resistor": comp.ref if comp is not None else None}))
         elif r_minus > 0:
             improved = _worst(s_vos, s_p - r_minus * s_vos, s_m, vos, ib, ios)
             if improved < 0.5 * worst:
@@ -102,5 +107,7 @@ def check_bias_resistor(ctx: StageContext) -> list[Finding]:
                     f"cut the worst-case error from {format_si(worst, 'V')} to "
                     f"{format_si(improved, 'V')} (the bias currents of this part are matched)",
                     f"add {_ohms(r_minus)} ({_values(r_minus)}) in series with the + input, "
-                    "bypassed with a capacitor if noise matters", sheet))
+                    "bypassed with a capacitor if noise matters", sheet,
+                    data={"resistance_minus_ohm": r_minus, "worst_case_v": worst,
+                          "worst_case_after_v": improved, "suggested_ohm": r_minus}))
     return findings

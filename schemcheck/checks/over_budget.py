@@ -23,5 +23,6 @@ def check_budget(ctx: StageContext) -> list[Finding]:
             f"{format_si(limit, 'V')}",
             "reduce the noise gain or the resistances the inputs see, or choose a part with "
             "lower Vos and bias currents; the contributors are listed with the stage",
-            sheet))
+            sheet, data={"worst_case_over_temp_v": worst, "budget_v": limit,
+                         "worst_temp_c": budget.worst_temp_c}))
     return findings

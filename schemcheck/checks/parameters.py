@@ -24,5 +24,5 @@ def check_parameters(ctx: StageContext) -> list[Finding]:
             f"{ctx.name(k)} ({value}) has no {names}: its sensitivities are reported, its "
             "error is unknown",
             f"add the fields {names} to the symbol, or an entry for {value!r} to the parts "
-            "library", sheet))
+            "library", sheet, data={"missing": list(missing), "value": value}))
     return findings

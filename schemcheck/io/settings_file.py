@@ -22,7 +22,7 @@ from typing import Any
 
 from schemcheck.rules import RULES
 from schemcheck.errors import ParseError
-from schemcheck.run.settings import Settings
+from schemcheck.settings import Settings
 from schemcheck.units import ValueFormatError, parse_quantity, parse_resistance, parse_tolerance
 from schemcheck.io.files import read_text
 

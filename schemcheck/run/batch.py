@@ -14,10 +14,12 @@ from dataclasses import replace
 from typing import Any, Callable
 
 from schemcheck import __version__
-from schemcheck.audit import CAUTION
 from schemcheck.errors import SchemcheckError
 from schemcheck.io.discover import DesignRef, find_designs
-from schemcheck.run.settings import Settings
+from schemcheck.model import Finding
+from schemcheck.report.json import to_data
+from schemcheck.results import DesignResult, Report, Tool
+from schemcheck.settings import Settings
 
 UNREADABLE = "unreadable-design"
 
@@ -58,12 +60,10 @@ def submission_key(paths: list[str], overrides: dict[str, Any]) -> str:
 
 
 def _unreadable(root: str, message: str, settings: Settings | None = None) -> dict[str, Any]:
-    return {"file": root, "stages": [], "not_analysed": [], "assumptions": [],
-            "settings": (settings or Settings()).describe(), "errors": [message],
-            "caution": CAUTION,
-            "findings": [{"rule": UNREADABLE, "severity": "error", "ref": "", "unit": None,
-                          "message": message, "suggestion": "fix or re-save the file in the "
-                          "schematic editor", "sheet": "", "file": root}]}
+    finding = Finding(UNREADABLE, "error", "", None, message,
+                      "fix or re-save the file in the schematic editor", file=root)
+    return to_data(DesignResult(file=root, findings=[finding], errors=[message],
+                                settings=(settings or Settings()).describe()))
 
 
 _LIBRARIES: dict[str, tuple[float, dict]] = {}
@@ -84,7 +84,7 @@ def audit_one(root: str, settings: Settings) -> dict[str, Any]:
                 cached = _LIBRARIES[settings.parts_library] = (
                     stamp, load_parts_library(settings.parts_library))
             library = cached[1]
-        return audit_netlist(load_netlist(root), settings, library).to_dict()
+        return to_data(audit_netlist(load_netlist(root), settings, library))
     except SchemcheckError as error:
         detail = str(error)
         return _unreadable(root, detail, settings)
@@ -144,12 +144,12 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
             pool.shutdown()
     for error in missing:
         results.append(_unreadable(error.file or "", str(error)))
-    report: dict[str, Any] = {"tool": {"name": "schemcheck", "version": __version__},
-                              "designs": [_shown(r) for r in results if r is not None]}
-    report["stats"] = {"designs": len(report["designs"]), "from_cache": hits,
-                       "audited": len(todo)}
-    if cache is not None and cache.warnings:
-        report["warnings"] = list(cache.warnings)
+    shown = [_shown(r) for r in results if r is not None]
+    report = to_data(Report(Tool("schemcheck", __version__),
+                            stats={"designs": len(shown), "from_cache": hits,
+                                   "audited": len(todo)},
+                            warnings=list(cache.warnings) if cache is not None else []))
+    report["designs"] = shown  # already in their serialised form
     return report
 
 
