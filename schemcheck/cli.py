@@ -59,7 +59,7 @@ def main() -> None:
 
     \b
     Example:
-      schemcheck netlist fixtures/demo/demo.kicad_sch --format text
+      schemcheck audit fixtures/demo/frontend.kicad_sch --format text
     """
 
 

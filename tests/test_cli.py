@@ -115,3 +115,17 @@ def test_whole_process_no_traceback(tmp_path):
 def test_every_command_help_has_example(command):
     code, out, _ = run(command, "--help")
     assert code == 0 and "Example:" in out and "schemcheck " in out
+
+
+def test_top_level_help_example_runs_on_a_file_that_exists(monkeypatch):
+    # the example a newcomer copies first must name a real file of the repository
+    from .conftest import ROOT
+
+    monkeypatch.chdir(ROOT)
+    code, out, _ = run("--help")
+    example = next(line.strip() for line in out.splitlines()
+                   if line.strip().startswith("schemcheck "))
+    words = example.split()
+    assert (ROOT / words[2]).is_file(), example
+    code, _, _ = run(*words[1:], "--no-cache", "--samples", "0")
+    assert code in (0, 1)
