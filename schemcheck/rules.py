@@ -64,3 +64,10 @@ RULES: dict[str, Rule] = {rule.id: rule for rule in _RULES}
 def rule(rule_id: str) -> Rule:
     """The registered rule ``rule_id``; KeyError names an id nobody registered."""
     return RULES[rule_id]
+
+
+def markdown_table() -> str:
+    """The README's rule table (``tests/test_rules.py`` checks the README holds it)."""
+    rows = ["| rule | default severity | what it means |", "|---|---|---|"]
+    rows += [f"| `{r.id}` | {r.severity} | {r.help} |" for r in RULES.values()]
+    return "\n".join(rows)
