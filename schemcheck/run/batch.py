@@ -188,18 +188,29 @@ def exit_status(report: dict[str, Any], fail_on: str) -> int:
 
 
 class Progress:
-    """A one-line progress bar on a terminal; silent when piped or in CI."""
+    """A one-line progress bar (click's) on a terminal; silent when piped or in CI.
 
-    def __init__(self, stream=None) -> None:
+    Called with (designs done, designs in all); ``close`` ends the line early."""
+
+    def __init__(self, stream: Any = None) -> None:
         self.stream = stream or sys.stderr
         self.enabled = self.stream.isatty() and not os.environ.get("CI")
+        self._bar: Any = None
 
     def __call__(self, done: int, total: int) -> None:
         if not self.enabled or total == 0:
             return
-        width = 30
-        filled = width * done // total
-        self.stream.write(f"\r[{'#' * filled}{'.' * (width - filled)}] {done}/{total} designs")
-        if done == total:
-            self.stream.write("\n")
-        self.stream.flush()
+        if self._bar is None:
+            import click
+
+            self._bar = click.progressbar(length=total, label="Auditing designs", file=self.stream,
+                                          empty_char=".", show_pos=True, width=30)
+            self._bar.__enter__()
+        self._bar.update(done - self._bar.pos)
+        if done >= total:
+            self.close()
+
+    def close(self) -> None:
+        if self._bar is not None:
+            bar, self._bar = self._bar, None
+            bar.__exit__(None, None, None)
