@@ -15,7 +15,7 @@ from typing import Any, Callable
 
 from schemcheck import __version__
 from schemcheck.audit import CAUTION
-from schemcheck.errors import SchemcheckError
+from schemcheck.errors import ParseError, SchemcheckError
 from schemcheck.io.discover import DesignRef, find_designs
 from schemcheck.run.settings import Settings
 
@@ -99,9 +99,13 @@ def _audit_task(args: tuple[str, Settings]) -> dict[str, Any]:
 def audit_paths(paths: list[str], *, base: Settings | None = None,
                 overrides: dict[str, Any] | None = None, settings_path: str | None = None,
                 jobs: int | None = None, cache: Any = None,
-                progress: Callable[[int, int], None] | None = None) -> dict[str, Any]:
-    """Audit every design under ``paths``; the report of ``schemcheck audit``."""
-    designs, missing = find_designs(paths)
+                progress: Callable[[int, int], None] | None = None,
+                found: tuple[list[DesignRef], list[ParseError]] | None = None) -> dict[str, Any]:
+    """Audit every design under ``paths``; the report of ``schemcheck audit``.
+
+    ``found`` is the designs and missing paths to audit when the caller has already
+    discovered (and chosen among) them; ``paths`` are then not searched again."""
+    designs, missing = found if found is not None else find_designs(paths)
     results: list[dict[str, Any] | None] = [None] * len(designs)
     todo: list[tuple[int, DesignRef, Settings, str | None]] = []
     hits = 0
