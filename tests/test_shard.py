@@ -150,6 +150,25 @@ def test_shards_cover_every_design_once(library, monkeypatch):
     assert sorted(seen) == list(range(DESIGNS))
 
 
+def test_shards_sharing_a_cache_keep_each_copy_its_own_name(tmp_path, monkeypatch):
+    """Two identical designs in two folders share one results-store key (contents and
+    relative paths); a shard reading the other's stored result reports its own files."""
+    for folder in ("a", "b"):
+        (tmp_path / folder).mkdir()
+        (tmp_path / folder / "amp.kicad_sch").write_text(_design(1, "1mV"), encoding="utf-8")
+    monkeypatch.chdir(tmp_path)
+    cache = ("--samples", "0", "--jobs", "1", "--cache-file", str(tmp_path / "c.sqlite3"))
+    reports = []
+    for index in (1, 2):
+        reports.append(str(tmp_path / f"s{index}.json"))
+        run("audit", "a", "b", *cache, "--shard", f"{index}/2", "-o", reports[-1])
+    merged = json.loads(run("merge", *reports)[1])
+    assert merged["stats"] == {"designs": 2, "from_cache": 1, "audited": 1}
+    assert [d["file"] for d in merged["designs"]] == ["a/amp.kicad_sch", "b/amp.kicad_sch"]
+    assert [f["file"] for d in merged["designs"] for f in d["findings"]] == [
+        "a/amp.kicad_sch", "b/amp.kicad_sch"]  # over-budget on each
+
+
 @pytest.mark.parametrize("text", ["0/4", "5/4", "a/b", "4", "1/0", ""])
 def test_bad_shard_is_a_usage_error(text):
     code, _, err = run("audit", ".", "--shard", text)

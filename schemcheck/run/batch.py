@@ -121,7 +121,7 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
             key = design_key_for(design, settings)
             hit = cache.get(key) if key else None
             if hit is not None:
-                results[index] = hit
+                results[index] = _moved(hit, design.root)
                 hits += 1
                 continue
         todo.append((index, design, settings, key))
@@ -155,6 +155,22 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
     if cache is not None and cache.warnings:
         report["warnings"] = list(cache.warnings)
     return report
+
+
+def _moved(result: dict[str, Any], root: str) -> dict[str, Any]:
+    """A stored result as the result of the design at ``root``: the key holds contents
+    and relative paths only, so an identical design elsewhere (a copy in another folder)
+    shares it, and the stored paths are moved to this design's folder."""
+    stored = os.path.dirname(result["file"])
+    here = os.path.dirname(root)
+    if stored == here:
+        return result
+    import json
+
+    def quoted(folder: str) -> str:
+        return json.dumps(folder + os.sep)[1:-1]
+
+    return json.loads(json.dumps(result).replace(quoted(stored), quoted(here)))
 
 
 def _display(path: str) -> str:
