@@ -108,6 +108,18 @@ class ToolSchema(Schema):
     version = fields.String()
 
 
+class ShardSchema(Schema):
+    index = fields.Integer(required=True, validate=validate.Range(min=1),
+                           metadata={"description": "K of --shard K/N"})
+    count = fields.Integer(required=True, validate=validate.Range(min=1),
+                           metadata={"description": "N of --shard K/N"})
+    total = fields.Integer(required=True, validate=validate.Range(min=0),
+                           metadata={"description": "designs in the whole, unsplit batch"})
+    positions = fields.List(fields.Integer(validate=validate.Range(min=0)), required=True,
+                            metadata={"description": "where each of this report's designs "
+                                                     "stands in the whole batch (0-based)"})
+
+
 class ReportSchema(Schema):
     """The audit report: the JSON of ``schemcheck audit`` and of the service."""
 
@@ -115,6 +127,8 @@ class ReportSchema(Schema):
     designs = fields.List(fields.Nested(DesignSchema), required=True)
     stats = fields.Dict(keys=fields.String(), values=fields.Integer())
     warnings = fields.List(fields.String())
+    shard = fields.Nested(ShardSchema, metadata={"description": "present in the report of "
+                                                                "one shard (--shard K/N)"})
 
 
 class PathRequestSchema(Schema):

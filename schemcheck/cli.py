@@ -5,13 +5,16 @@ from __future__ import annotations
 import functools
 import os
 import sys
-from typing import Any, Callable
+from typing import TYPE_CHECKING, Any, Callable
 
 import click
 
 from schemcheck import __version__
 from schemcheck.errors import SchemcheckError
 from schemcheck.report.formats import FORMATS
+
+if TYPE_CHECKING:
+    from schemcheck.run.shard import Shard
 
 EXIT_FINDINGS = 1
 EXIT_BAD_INPUT = 2
@@ -92,11 +95,35 @@ def netlist(path: str, fmt: str) -> None:
         sys.exit(EXIT_BAD_INPUT)
 
 
+def _shard_option(_ctx: click.Context, _param: click.Parameter,
+                  value: str | None) -> Shard | None:
+    from schemcheck.run.shard import Shard
+
+    if value is None:
+        return None
+    try:
+        return Shard.parse(value)
+    except SchemcheckError as error:
+        raise click.BadParameter(str(error).removeprefix("<input>: ")) from None
+
+
+def _output_option(command: Callable[..., Any]) -> Callable[..., Any]:
+    return click.option("--output", "-o", "output",
+                        type=click.Path(dir_okay=False, path_type=str), default=None,
+                        help="Write the report to FILE instead of standard output.")(command)
+
+
+def _fail_on_option(command: Callable[..., Any]) -> Callable[..., Any]:
+    return click.option("--fail-on", "fail_on", type=click.Choice(("info", "warning", "error")),
+                        default="error", show_default=True,
+                        help="Exit with status 1 when a finding of this severity or worse is "
+                             "found.")(command)
+
+
 @main.command()
-@click.argument("paths", nargs=-1, required=True, type=str)
+@click.argument("paths", nargs=-1, type=str)
 @_format_option(tuple(FORMATS), "json")
-@click.option("--output", "-o", "output", type=click.Path(dir_okay=False, path_type=str),
-              default=None, help="Write the report to FILE instead of standard output.")
+@_output_option
 @click.option("--temp", "temp", metavar="MIN:MAX", default=None,
               help="Operating temperature range in °C (default 0:70).")
 @click.option("--parts", "parts", type=click.Path(dir_okay=False, path_type=str), default=None,
@@ -111,22 +138,30 @@ def netlist(path: str, fmt: str) -> None:
                                  "each design.")
 @click.option("--jobs", "-j", "jobs", type=click.IntRange(1, 256), default=None,
               help="Worker processes (default: the machine's cores).")
-@click.option("--fail-on", "fail_on", type=click.Choice(("info", "warning", "error")),
-              default="error", show_default=True,
-              help="Exit with status 1 when a finding of this severity or worse is found.")
+@_fail_on_option
 @click.option("--no-cache", "no_cache", is_flag=True, help="Audit everything afresh.")
 @click.option("--cache-file", "cache_file", type=click.Path(dir_okay=False, path_type=str),
               default=None, help="Results database (default: in the user cache folder).")
+@click.option("--changed-since", "changed_since", metavar="REV", default=None,
+              help="Only designs any of whose files (sheets, settings, parts library) differ "
+                   "between the git revision REV and the working tree.")
+@click.option("--staged", "staged", is_flag=True,
+              help="Only designs any of whose files are staged for commit (git).")
+@click.option("--shard", "shard", metavar="K/N", default=None, callback=_shard_option,
+              help="Audit only the K-th of N stable parts of the designs (a CI matrix); "
+                   "join the reports with 'schemcheck merge'.")
 @_reports_errors
 def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None,
           parts: str | None, budget: str | None, samples: int | None, seed: int | None,
           settings_path: str | None, jobs: int | None, fail_on: str, no_cache: bool,
-          cache_file: str | None) -> None:
+          cache_file: str | None, changed_since: str | None, staged: bool,
+          shard: Shard | None) -> None:
     """Audit the DC output error of every op-amp stage of one or many designs.
 
     PATHS are schematics, exported netlists, project folders or folders of many
     projects (searched recursively; child sheets are audited through their root).
     Settings come from schemcheck.toml beside each design; options override it.
+    With --changed-since or --staged, PATHS default to the current folder.
 
     Exit status: 0 no finding at or above --fail-on, 1 such findings, 2 unreadable
     input or bad usage.
@@ -135,23 +170,87 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
     Example:
       schemcheck audit frontend.kicad_sch --temp -40:85 --parts opamps.toml --format text
       schemcheck audit designs/ --jobs 4 --format markdown --output checklist.md
+      schemcheck audit --changed-since origin/main --format sarif --output audit.sarif
+      schemcheck audit designs/ --shard 2/4 --output shard2.json
     """
-    from schemcheck.run.batch import Progress, audit_paths, exit_status
+    from schemcheck.io.discover import find_designs
+    from schemcheck.run.batch import Progress, audit_paths
     from schemcheck.run.runner import options_to_overrides
 
+    if changed_since is not None and staged:
+        raise click.UsageError("--changed-since and --staged each choose the designs to "
+                               "audit: give one of them")
+    if not paths:
+        if changed_since is None and not staged:
+            raise click.UsageError("Missing argument 'PATHS...' (or give --changed-since REV "
+                                   "or --staged to audit changed designs under the current "
+                                   "folder).")
+        paths = (".",)
     overrides = options_to_overrides(temp=temp, parts=parts, budget=budget, samples=samples,
                                      seed=seed)
+    designs, missing = find_designs(list(paths))
+    if changed_since is not None or staged:
+        from schemcheck.run.changes import changed_files, touched_designs
+
+        changed = changed_files(list(paths), changed_since)
+        designs = touched_designs(designs, changed, overrides=overrides,
+                                  settings_path=settings_path)
+        if not designs:
+            what = (f"changed since {changed_since}" if changed_since is not None
+                    else "staged for commit")
+            click.echo(f"No design has a file {what}; nothing to audit.", err=True)
+    shard_info = None
+    if shard is not None:
+        from schemcheck.run.shard import split
+
+        designs, missing, shard_info = split(designs, missing, shard)
     cache = None
     if not no_cache:
         from schemcheck.run.cache import ResultCache
 
         cache = ResultCache(cache_file)
+    progress = Progress()
     try:
         report = audit_paths(list(paths), overrides=overrides, settings_path=settings_path,
-                             jobs=jobs, cache=cache, progress=Progress())
+                             jobs=jobs, cache=cache, progress=progress,
+                             found=(designs, missing))
     finally:
+        progress.close()
         if cache is not None:
             cache.close()
+    if shard_info is not None:
+        report["shard"] = shard_info
+    _finish(report, fmt, output, fail_on)
+
+
+@main.command()
+@click.argument("reports", nargs=-1, required=True,
+                type=click.Path(dir_okay=False, path_type=str))
+@_format_option(tuple(FORMATS), "json")
+@_output_option
+@_fail_on_option
+@_reports_errors
+def merge(reports: tuple[str, ...], fmt: str, output: str | None, fail_on: str) -> None:
+    """Join the JSON reports of 'schemcheck audit --shard K/N' into one report.
+
+    Given every shard of one run, in any order, the result (and the exit status) is that
+    of the designs audited at once. Reports without --shard are joined in the order
+    given. Exit status as for audit.
+
+    \b
+    Example:
+      schemcheck merge shard1.json shard2.json shard3.json --format sarif -o audit.sarif
+    """
+    from schemcheck.run.shard import merge_reports, read_report
+
+    _finish(merge_reports([(path, read_report(path)) for path in reports]), fmt, output,
+            fail_on)
+
+
+def _finish(report: dict[str, Any], fmt: str, output: str | None, fail_on: str) -> None:
+    """Write ``report``, repeat its warnings and errors on standard error, exit."""
+    from schemcheck.run.batch import exit_status
+
     text = _render(report, fmt, output)
     if output:
         from schemcheck.io.files import write_text

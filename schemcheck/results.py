@@ -55,6 +55,10 @@ class Contributor:
     worst_case_v: float | None
 
 
+#: Field metadata: a field with a default that a report read back must still have.
+REQUIRED = {"required": True}
+
+
 @dataclass(slots=True)
 class StageResult:
     """One op-amp stage: its network, its sensitivities and its budget."""
@@ -102,9 +106,9 @@ class DesignResult:
     """Everything the audit says about one design."""
 
     file: str
-    stages: list[StageResult] = field(default_factory=list)
-    findings: list[Finding] = field(default_factory=list)
-    assumptions: list[str] = field(default_factory=list)
+    stages: list[StageResult] = field(default_factory=list, metadata=REQUIRED)
+    findings: list[Finding] = field(default_factory=list, metadata=REQUIRED)
+    assumptions: list[str] = field(default_factory=list, metadata=REQUIRED)
     not_analysed: list[NotAnalysed] = field(default_factory=list)
     settings: dict[str, Any] = field(default_factory=dict)
     errors: list[str] = field(default_factory=list)
@@ -113,15 +117,30 @@ class DesignResult:
 
 @dataclass(slots=True)
 class Tool:
-    name: str
-    version: str
+    name: str = "schemcheck"
+    version: str = ""
+
+
+@dataclass(slots=True)
+class Shard:
+    """Which part of a batch split with ``--shard K/N`` a report holds."""
+
+    index: int  # K
+    count: int  # N
+    total: int  # designs in the whole batch
+    positions: list[int] = field(default_factory=list)  # each design's place in the batch
+
+
+#: Field metadata: the key is left out of the JSON when the value is None.
+OMIT_WHEN_NONE = {"omit_when_none": True}
 
 
 @dataclass(slots=True)
 class Report:
     """One audit run over any number of designs."""
 
-    tool: Tool
-    designs: list[DesignResult] = field(default_factory=list)
+    tool: Tool = field(default_factory=Tool)
+    designs: list[DesignResult] = field(default_factory=list, metadata=REQUIRED)
     stats: dict[str, int] = field(default_factory=dict)
     warnings: list[str] = field(default_factory=list)
+    shard: Shard | None = field(default=None, metadata=OMIT_WHEN_NONE)

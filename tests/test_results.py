@@ -20,6 +20,7 @@ from schemcheck_api import schemas
 PAIRS = [
     (results.Report, schemas.ReportSchema),
     (results.Tool, schemas.ToolSchema),
+    (results.Shard, schemas.ShardSchema),
     (results.DesignResult, schemas.DesignSchema),
     (results.StageResult, schemas.StageSchema),
     (results.Sensitivity, schemas.SensitivitySchema),

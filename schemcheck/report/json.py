@@ -8,18 +8,22 @@ from __future__ import annotations
 import dataclasses
 import json
 import math
+import types
+import typing
 from typing import Any
 
 from schemcheck.model import Finding
 from schemcheck.results import (
-    Contributor, DesignResult, NotAnalysed, ParamsUsed, Report, Sensitivity, StageResult, Tool,
+    Contributor, DesignResult, NotAnalysed, ParamsUsed, Report, Sensitivity, Shard, StageResult,
+    Tool,
 )
 
 
 def to_data(value: Any) -> Any:
     """``value`` (a results object, or lists/dicts of them) as plain JSON data."""
     if dataclasses.is_dataclass(value) and not isinstance(value, type):
-        return {f.name: to_data(getattr(value, f.name)) for f in dataclasses.fields(value)}
+        return {f.name: to_data(getattr(value, f.name)) for f in dataclasses.fields(value)
+                if not (f.metadata.get("omit_when_none") and getattr(value, f.name) is None)}
     if isinstance(value, float):
         if not math.isfinite(value):
             return None
@@ -63,4 +67,66 @@ def design_from_data(data: dict[str, Any]) -> DesignResult:
 def report_from_data(data: dict[str, Any]) -> Report:
     return _build(Report, data, {
         "tool": lambda d: _build(Tool, d, {}),
+        "shard": lambda d: _build(Shard, d, {}),
         "designs": lambda items: [design_from_data(d) for d in items]})
+
+
+def _type_problem(hint: Any, value: Any, trail: str) -> tuple[str, str] | None:
+    origin = typing.get_origin(hint)
+    if origin in (typing.Union, types.UnionType):
+        options = typing.get_args(hint)
+        if value is None and type(None) in options:
+            return None
+        problems = [_type_problem(h, value, trail) for h in options if h is not type(None)]
+        return None if any(p is None for p in problems) else problems[0]
+    if dataclasses.is_dataclass(hint):
+        return check_data(hint, value, trail)
+    if origin is list:
+        if not isinstance(value, list):
+            return trail, "Not a valid list."
+        (inner,) = typing.get_args(hint)
+        for i, item in enumerate(value):
+            problem = _type_problem(inner, item, f"{trail}.{i}")
+            if problem:
+                return problem
+        return None
+    if origin is dict or hint is dict:
+        return None if isinstance(value, dict) else (trail, "Not a valid mapping type.")
+    if hint is Any:
+        return None
+    if hint is float:
+        ok = isinstance(value, (int, float)) and not isinstance(value, bool)
+        return None if ok else (trail, "Not a valid number.")
+    if hint is int:
+        ok = isinstance(value, int) and not isinstance(value, bool)
+        return None if ok else (trail, "Not a valid integer.")
+    if hint is bool:
+        return None if isinstance(value, bool) else (trail, "Not a valid boolean.")
+    if hint is str:
+        return None if isinstance(value, str) else (trail, "Not a valid string.")
+    return None
+
+
+def check_data(cls: type, data: Any, trail: str = "") -> tuple[str, str] | None:
+    """The first thing (field path, what is wrong) that keeps ``data`` from being the JSON
+    form of a ``cls`` written by this tool, or None. A field without a default, or marked
+    required, must be present; fields are taken in name order."""
+    if not isinstance(data, dict):
+        return trail, "Invalid input type."
+    hints = typing.get_type_hints(cls)
+    fields = {f.name: f for f in dataclasses.fields(cls)}
+    for name in sorted(set(fields) | set(data)):
+        where = f"{trail}.{name}" if trail else name
+        if name not in fields:
+            return where, "Unknown field."
+        if name not in data:
+            spec = fields[name]
+            has_default = (spec.default is not dataclasses.MISSING
+                           or spec.default_factory is not dataclasses.MISSING)
+            if has_default and not spec.metadata.get("required"):
+                continue
+            return where, "Missing data for required field."
+        problem = _type_problem(hints[name], data[name], where)
+        if problem:
+            return problem
+    return None

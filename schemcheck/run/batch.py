@@ -14,7 +14,7 @@ from dataclasses import replace
 from typing import Any, Callable
 
 from schemcheck import __version__
-from schemcheck.errors import SchemcheckError
+from schemcheck.errors import ParseError, SchemcheckError
 from schemcheck.io.discover import DesignRef, find_designs
 from schemcheck.model import Finding
 from schemcheck.report.json import to_data
@@ -99,9 +99,13 @@ def _audit_task(args: tuple[str, Settings]) -> dict[str, Any]:
 def audit_paths(paths: list[str], *, base: Settings | None = None,
                 overrides: dict[str, Any] | None = None, settings_path: str | None = None,
                 jobs: int | None = None, cache: Any = None,
-                progress: Callable[[int, int], None] | None = None) -> dict[str, Any]:
-    """Audit every design under ``paths``; the report of ``schemcheck audit``."""
-    designs, missing = find_designs(paths)
+                progress: Callable[[int, int], None] | None = None,
+                found: tuple[list[DesignRef], list[ParseError]] | None = None) -> dict[str, Any]:
+    """Audit every design under ``paths``; the report of ``schemcheck audit``.
+
+    ``found`` is the designs and missing paths to audit when the caller has already
+    discovered (and chosen among) them; ``paths`` are then not searched again."""
+    designs, missing = found if found is not None else find_designs(paths)
     results: list[dict[str, Any] | None] = [None] * len(designs)
     todo: list[tuple[int, DesignRef, Settings, str | None]] = []
     hits = 0
@@ -117,7 +121,7 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
             key = design_key_for(design, settings)
             hit = cache.get(key) if key else None
             if hit is not None:
-                results[index] = hit
+                results[index] = _moved(hit, design.root)
                 hits += 1
                 continue
         todo.append((index, design, settings, key))
@@ -151,6 +155,22 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
                             warnings=list(cache.warnings) if cache is not None else []))
     report["designs"] = shown  # already in their serialised form
     return report
+
+
+def _moved(result: dict[str, Any], root: str) -> dict[str, Any]:
+    """A stored result as the result of the design at ``root``: the key holds contents
+    and relative paths only, so an identical design elsewhere (a copy in another folder)
+    shares it, and the stored paths are moved to this design's folder."""
+    stored = os.path.dirname(result["file"])
+    here = os.path.dirname(root)
+    if stored == here:
+        return result
+    import json
+
+    def quoted(folder: str) -> str:
+        return json.dumps(folder + os.sep)[1:-1]
+
+    return json.loads(json.dumps(result).replace(quoted(stored), quoted(here)))
 
 
 def _display(path: str) -> str:
@@ -188,18 +208,29 @@ def exit_status(report: dict[str, Any], fail_on: str) -> int:
 
 
 class Progress:
-    """A one-line progress bar on a terminal; silent when piped or in CI."""
+    """A one-line progress bar (click's) on a terminal; silent when piped or in CI.
 
-    def __init__(self, stream=None) -> None:
+    Called with (designs done, designs in all); ``close`` ends the line early."""
+
+    def __init__(self, stream: Any = None) -> None:
         self.stream = stream or sys.stderr
         self.enabled = self.stream.isatty() and not os.environ.get("CI")
+        self._bar: Any = None
 
     def __call__(self, done: int, total: int) -> None:
         if not self.enabled or total == 0:
             return
-        width = 30
-        filled = width * done // total
-        self.stream.write(f"\r[{'#' * filled}{'.' * (width - filled)}] {done}/{total} designs")
-        if done == total:
-            self.stream.write("\n")
-        self.stream.flush()
+        if self._bar is None:
+            import click
+
+            self._bar = click.progressbar(length=total, label="Auditing designs", file=self.stream,
+                                          empty_char=".", show_pos=True, width=30)
+            self._bar.__enter__()
+        self._bar.update(done - self._bar.pos)
+        if done >= total:
+            self.close()
+
+    def close(self) -> None:
+        if self._bar is not None:
+            bar, self._bar = self._bar, None
+            bar.__exit__(None, None, None)
