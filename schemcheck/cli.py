@@ -94,7 +94,9 @@ def netlist(path: str, fmt: str) -> None:
 
 @main.command()
 @click.argument("paths", nargs=-1, required=True, type=str)
-@_format_option(tuple(FORMATS), "json")
+@click.option("--format", "fmt", type=click.Choice(tuple(FORMATS)), default=None,
+              help="Output format. Default: text (the stage table) on a terminal; json when "
+                   "the output is piped, redirected or written with --output.")
 @click.option("--output", "-o", "output", type=click.Path(dir_okay=False, path_type=str),
               default=None, help="Write the report to FILE instead of standard output.")
 @click.option("--temp", "temp", metavar="MIN:MAX", default=None,
@@ -138,6 +140,9 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
     """
     from schemcheck.run.batch import Progress, audit_paths, exit_status
     from schemcheck.run.runner import options_to_overrides
+
+    if fmt is None:
+        fmt = "text" if not output and sys.stdout.isatty() else "json"
 
     overrides = options_to_overrides(temp=temp, parts=parts, budget=budget, samples=samples,
                                      seed=seed)
