@@ -26,12 +26,17 @@ class FindingSchema(Schema):
     file = fields.String()
     data = fields.Dict(keys=fields.String(), values=fields.Raw(allow_none=True),
                        metadata={"description": "The finding's numbers, SI units"})
+    channel = fields.Integer(allow_none=True, metadata={
+        "description": "The amplifier within the unit where one unit holds several"})
+    stage = fields.String(metadata={"description": "The stage identifier, like U4/2"})
 
 
 class SensitivitySchema(Schema):
     vos = _num(metadata={"description": "V/V: the noise gain"})
     ib_plus = _num(metadata={"description": "V/A"})
     ib_minus = _num(metadata={"description": "V/A"})
+    ib = _num(metadata={"description": "V/A: ib_plus + ib_minus"})
+    ios = _num(metadata={"description": "V/A: (ib_plus - ib_minus) / 2"})
 
 
 class ParamsSchema(Schema):
@@ -54,6 +59,70 @@ class ContributorSchema(Schema):
     ref = fields.String()
     unit = fields.Integer(allow_none=True)
     worst_case_v = _num()
+    id = fields.String()
+
+
+class ErrorSplitSchema(Schema):
+    """Where the worst case over temperature comes from, volts."""
+
+    vos_v = _num()
+    ib_v = _num()
+    ios_v = _num()
+    ib_plus_v = _num(metadata={"description": "What Ib+ alone gives (signed)"})
+    ib_minus_v = _num(metadata={"description": "What Ib- alone gives (signed)"})
+    upstream_v = _num()
+    drift_v = _num()
+    worst_temp_c = _num()
+
+
+class UpstreamSchema(Schema):
+    id = fields.String()
+    ref = fields.String()
+    unit = fields.Integer(allow_none=True)
+    channel = fields.Integer(allow_none=True)
+    gain = _num(metadata={"description": "V/V from that stage's output to this one"})
+    worst_case_v = _num()
+
+
+class CompensationSchema(Schema):
+    resistor = fields.String(allow_none=True)
+    resistor_ohm = _num()
+    ideal_ohm = _num()
+    useful = fields.Boolean(allow_none=True)
+
+
+class PartRequirementsSchema(Schema):
+    """The largest own Vos, Ib, Ios keeping the stage within its budget (V, A)."""
+
+    budget_v = _num()
+    upstream_v = _num()
+    upstream_unknown = fields.List(fields.String())
+    available_v = _num()
+    delta_t_c = _num()
+    vos_alone_v = _num()
+    ib_alone_a = _num()
+    ios_alone_a = _num()
+    vos_split_v = _num()
+    ib_split_a = _num()
+    ios_split_a = _num()
+    part_vos_v = _num()
+    part_ib_a = _num()
+    part_ios_a = _num()
+    part_within = fields.Boolean(allow_none=True)
+
+
+class MissingPartSchema(Schema):
+    part = fields.String()
+    missing = fields.List(fields.String())
+    units = fields.Integer()
+    stages = fields.List(fields.String())
+
+
+class MissingAcrossSchema(Schema):
+    part = fields.String()
+    missing = fields.List(fields.String())
+    units = fields.Integer()
+    designs = fields.List(fields.String())
 
 
 class StageSchema(Schema):
@@ -82,6 +151,11 @@ class StageSchema(Schema):
     within_budget = fields.Boolean(allow_none=True)
     depends_on_undefined_output = fields.Boolean()
     contributors = fields.List(fields.Nested(ContributorSchema))
+    id = fields.String(metadata={"description": "The stage identifier, like U4/2"})
+    split = fields.Nested(ErrorSplitSchema, allow_none=True)
+    upstream = fields.List(fields.Nested(UpstreamSchema))
+    compensation = fields.Nested(CompensationSchema, allow_none=True)
+    requirements = fields.Nested(PartRequirementsSchema, allow_none=True)
 
 
 class NotAnalysedSchema(Schema):
@@ -90,6 +164,7 @@ class NotAnalysedSchema(Schema):
     sheet = fields.String()
     value = fields.String()
     reason = fields.String()
+    id = fields.String()
 
 
 class DesignSchema(Schema):
@@ -101,6 +176,7 @@ class DesignSchema(Schema):
     settings = fields.Dict(keys=fields.String(), values=fields.Raw(allow_none=True))
     errors = fields.List(fields.String())
     caution = fields.String()
+    missing_parameters = fields.List(fields.Nested(MissingPartSchema))
 
 
 class ToolSchema(Schema):
@@ -127,6 +203,9 @@ class ReportSchema(Schema):
     designs = fields.List(fields.Nested(DesignSchema), required=True)
     stats = fields.Dict(keys=fields.String(), values=fields.Integer())
     warnings = fields.List(fields.String())
+    assumptions = fields.List(fields.String(), metadata={
+        "description": "The model's assumptions, the same for every design"})
+    missing_parameters = fields.List(fields.Nested(MissingAcrossSchema))
     shard = fields.Nested(ShardSchema, metadata={"description": "present in the report of "
                                                                 "one shard (--shard K/N)"})
 

@@ -10,17 +10,22 @@ from dataclasses import replace
 from typing import Any, Mapping
 
 from schemcheck import checks
-from schemcheck.engine.budget import StageBudget, monte_carlo, stage_budget
+from schemcheck.assumptions import design_assumptions
+from schemcheck.engine.budget import monte_carlo, stage_budget
+from schemcheck.checks.bias_resistor import compensation_resistor
 from schemcheck.checks.context import StageContext
-from schemcheck.engine.dcerror import Solution, solve
-from schemcheck.model import Finding, Netlist, natural_key
+from schemcheck.checks.parameters import missing_by_part
+from schemcheck.engine import split
+from schemcheck.engine.dcerror import solve
+from schemcheck.model import Finding, Netlist
 from schemcheck.results import (
-    CAUTION, Contributor, DesignResult, NotAnalysed, ParamsUsed, Sensitivity, StageResult,
+    Compensation, Contributor, DesignResult, ErrorSplit, MissingPart, NotAnalysed, ParamsUsed,
+    PartRequirements, Sensitivity, StageResult, Upstream,
 )
-from schemcheck.engine.network import Network, build_network
+from schemcheck.engine.network import build_network
 from schemcheck.engine.params import OpampParams, ParameterError, resolve
 from schemcheck.settings import Settings
-from schemcheck.engine.stages import recognise
+from schemcheck.engine.stages import amplifier_name, recognise
 from schemcheck.engine.topology import label
 from schemcheck.units import ValueFormatError, parse_quantity
 
@@ -48,14 +53,14 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     units, skipped = recognise(netlist.parts)
     for s in skipped:
         result.not_analysed.append(NotAnalysed(s.part.ref, s.part.unit, s.part.sheet,
-                                               s.part.value, s.reason))
+                                               s.part.value, s.reason, amplifier_name(s.part)))
     network = build_network(netlist, units, skipped,
                             default_tolerance=settings.default_tolerance,
                             source_resistance=settings.source_resistance)
     for unit in network.unused:
         result.not_analysed.append(NotAnalysed(
             unit.part.ref, unit.part.unit, unit.part.sheet, unit.part.value,
-            "unused amplifier (inputs tied to rails or open, output not connected)"))
+            "unused amplifier (inputs tied to rails or open, output not connected)", unit.name))
     problems = list(network.problems)
     params: list[OpampParams] = []
     for op in network.opamps:
@@ -84,46 +89,115 @@ def audit_netlist(netlist: Netlist, settings: Settings,
                   for op in network.opamps}
     result.findings = [replace(f, file=sheet_file.get((f.ref, f.unit)) or netlist.source)
                        for f in findings if f.rule not in settings.disabled_rules]
-    result.stages = [_stage_result(network, solution, params, budgets, mc, limits, k)
-                     for k in range(len(network.opamps))]
-    result.assumptions = _assumptions(network, solution, settings, params) + [
-        f"problem: {p}" for p in problems]
-    if skipped:
-        result.assumptions.append("amplifiers recognised but not analysed (listed under "
-                                  "not_analysed) are treated as open at DC")
+    result.stages = [_stage_result(ctx, mc, k) for k in range(len(network.opamps))]
+    result.assumptions = design_assumptions(network, netlist.parts, params,
+                                            {s.part.ref for s in skipped}, problems)
+    result.missing_parameters = [
+        MissingPart(value, list(missing), len(opamps),
+                    [network.opamps[k].unit.name for k in opamps])
+        for (value, missing), opamps in missing_by_part(ctx).items()]
     return result
+
+
+_SOURCE_ORDER = ("vos", "ib", "ios", "tcvos", "ib_hot", "ios_hot", "t_hot", "input_type", "aol")
+
+
+def _ordered(mapping: Mapping[str, Any]) -> dict[str, Any]:
+    """``mapping`` in a fixed key order (the parameters' order, then by name)."""
+    rank = {name: i for i, name in enumerate(_SOURCE_ORDER)}
+    return {k: mapping[k] for k in sorted(mapping, key=lambda k: (rank.get(k, len(rank)), k))}
 
 
 def _params_used(p: OpampParams) -> ParamsUsed:
     return ParamsUsed(vos=p.vos, ib=p.ib, ios=p.ios, tcvos=p.tcvos, ib_hot=p.ib_hot,
                       ios_hot=p.ios_hot, t_hot=p.t_hot, input=p.input_type, aol=p.aol,
-                      ib_either_sign=p.ib_either_sign, typical=dict(p.typical),
-                      library_entry=p.library_entry, source=dict(p.source))
+                      ib_either_sign=p.ib_either_sign, typical=_ordered(p.typical),
+                      library_entry=p.library_entry, source=_ordered(p.source))
 
 
-def _stage_result(network: Network, solution: Solution, params: list[OpampParams],
-                  budgets: list[StageBudget], mc: dict[int, float | None],
-                  limits: list[float | None], k: int) -> StageResult:
+def _resistances(c: split.Coefficients | None) -> tuple[float | None, float | None]:
+    """R+ and R-, the DC resistance each input sees (ohms), from the own sensitivities."""
+    if c is None or c.vos == 0.0:
+        return None, None
+    return -c.ib_plus / c.vos + 0.0, c.ib_minus / c.vos + 0.0
+
+
+def _compensation(ctx: StageContext, k: int, r_plus: float | None,
+                  r_minus: float | None) -> Compensation | None:
+    if r_plus is None or r_minus is None:
+        return None
+    p = ctx.params[k]
+    useful = p.bias_currents_matched if p.complete else None
+    resistor = compensation_resistor(ctx, k)
+    if resistor is not None:
+        ideal = resistor.ohms + (r_minus - r_plus)
+        return Compensation(resistor.ref, resistor.ohms, ideal if ideal > 0 else None, useful)
+    added = r_minus - r_plus
+    scale = max(r_minus, r_plus)
+    ideal = 0.0 if abs(added) <= 1e-9 * scale else added if added > 0 else None
+    return Compensation(None, None, ideal, useful)
+
+
+def _split(ctx: StageContext, k: int, upstream: list[Upstream]) -> ErrorSplit | None:
+    if ctx.solution.status[k] != "ok":
+        return None
+    budget = ctx.budgets[k]
+    terms = split.own_terms(ctx.solution, k, ctx.params[k])
+    known = [u.worst_case_v for u in upstream]
+    upstream_v = None if None in known or ctx.solution.tainted[k] else sum(
+        (v for v in known if v is not None), 0.0)
+    drift = None
+    if budget.worst_case_over_temp_v is not None and budget.worst_case_total_v is not None:
+        drift = budget.worst_case_over_temp_v - budget.worst_case_total_v
+    if terms is None:
+        return ErrorSplit(upstream_v=upstream_v, drift_v=drift,
+                          worst_temp_c=budget.worst_temp_c)
+    return ErrorSplit(terms.vos_v, terms.ib_v, terms.ios_v, terms.ib_plus_v, terms.ib_minus_v,
+                      upstream_v, drift, budget.worst_temp_c)
+
+
+def _requirements(ctx: StageContext, k: int) -> PartRequirements | None:
+    need = split.requirements(ctx.solution, k, ctx.params, ctx.temp_range,
+                              ctx.budget_limits[k])
+    if need is None:
+        return None
+    return PartRequirements(
+        need.budget_v, need.upstream_v, [ctx.name(j) for j in need.upstream_unknown],
+        need.available_v, need.delta_t_c, need.vos_alone_v, need.ib_alone_a,
+        need.ios_alone_a, need.vos_split_v, need.ib_split_a, need.ios_split_a,
+        need.part_vos_v, need.part_ib_a, need.part_ios_a, need.part_within)
+
+
+def _stage_result(ctx: StageContext, mc: dict[int, float | None], k: int) -> StageResult:
+    network, solution = ctx.network, ctx.solution
     op = network.opamps[k]
     part = op.unit.part
     status = solution.status[k]
-    own = solution.own(k)
-    budget = budgets[k]
-    noise_gain = own["vos"] if own else None
+    c = split.coefficients(solution, k)
+    budget = ctx.budgets[k]
+    noise_gain = c.vos if c else None
     worst = budget.worst_case_over_temp_v
-    limit = limits[k]
-    contributors = [Contributor(network.opamps[c["opamp"]].unit.part.ref,
-                                network.opamps[c["opamp"]].unit.part.unit, c["worst_case_v"])
-                    for c in budget.contributors]
+    limit = ctx.budget_limits[k]
+    contributors = [Contributor(network.opamps[item["opamp"]].unit.part.ref,
+                                network.opamps[item["opamp"]].unit.part.unit,
+                                item["worst_case_v"], network.opamps[item["opamp"]].unit.name)
+                    for item in budget.contributors]
+    upstream = [Upstream(network.opamps[f.opamp].unit.name, network.opamps[f.opamp].unit.part.ref,
+                         network.opamps[f.opamp].unit.part.unit,
+                         network.opamps[f.opamp].unit.channel, f.gain, f.worst_case_v)
+                for f in split.feeds(solution, k, ctx.params)]
+    r_plus, r_minus = _resistances(c)
+    sensitivity = (Sensitivity(c.vos, c.ib_plus, c.ib_minus, c.ib + 0.0, c.ios + 0.0)
+                   if c else Sensitivity())
     return StageResult(
         ref=part.ref, unit=part.unit, channel=op.unit.channel, sheet=part.sheet,
         value=part.value, topology=label(network, k, status), status=status,
         nets={"plus": op.plus, "minus": op.minus, "out": op.out},
         noise_gain=noise_gain,
-        sensitivity=Sensitivity(**own) if own else Sensitivity(),
-        resistance_plus_ohm=(-own["ib_plus"] / own["vos"]) if own and own["vos"] else None,
-        resistance_minus_ohm=(own["ib_minus"] / own["vos"]) if own and own["vos"] else None,
-        params=_params_used(params[k]),
+        sensitivity=sensitivity,
+        resistance_plus_ohm=r_plus,
+        resistance_minus_ohm=r_minus,
+        params=_params_used(ctx.params[k]),
         worst_case_own_v=budget.worst_case_own_v,
         worst_case_total_v=budget.worst_case_total_v,
         rss_own_v=budget.rss_own_v,
@@ -136,52 +210,9 @@ def _stage_result(network: Network, solution: Solution, params: list[OpampParams
         within_budget=(worst <= limit) if worst is not None and limit is not None else None,
         depends_on_undefined_output=solution.tainted[k],
         contributors=contributors,
+        id=op.unit.name,
+        split=_split(ctx, k, upstream),
+        upstream=upstream,
+        compensation=_compensation(ctx, k, r_plus, r_minus),
+        requirements=_requirements(ctx, k),
     )
-
-
-def _assumptions(network: Network, solution: Solution, settings: Settings,
-                 params: list[OpampParams]) -> list[str]:
-    low, high = settings.temp_range
-    given = set(settings.given)
-    out = [
-        f"operating temperature {low:g} to {high:g} °C"
-        + ("" if "temp_range" in given else " (default)"),
-        "capacitors are open and inductors/ferrite beads short at DC",
-        "op-amps are ideal (infinite open-loop gain) unless an Aol is given; Vos in series "
-        "with the + input; Ib+ and Ib- flow into the pins",
-        f"resistors without a Tolerance field: ±{settings.default_tolerance:.2%}"
-        + ("" if "default_tolerance" in given else " (default)"),
-        "Monte Carlo: resistors uniform within tolerance; Vos, Ib, Ios Gaussian with the "
-        f"maximum as 3 sigma and random sign; {settings.mc_samples} samples, seed "
-        f"{settings.seed}; 99.7 % bound at the worse end of the temperature range",
-        "without hot values, FET-input bias currents double every 10 °C and bipolar ones "
-        "are flat; hot values apply at the part's T_hot or else at the top of the range",
-        "referred-to-input figures divide the output error by the noise gain",
-        "worst-case and RSS figures use nominal resistor values; resistor tolerances enter "
-        "the Monte Carlo",
-    ]
-    out.extend(network.assumptions)
-    opens = {}
-    near = set()
-    for op in network.opamps:
-        near.update((op.plus, op.minus, op.out))
-    for r in network.resistors:
-        if r.a in near or r.b in near:
-            near.update((r.a, r.b))
-    for ref, nets in sorted(network.open_parts.items()):
-        touched = sorted(nets & near)
-        if touched:
-            opens[ref] = touched
-    if opens:
-        out.append("treated as open at DC where they touch an analysed net: "
-                   + ", ".join(f"{ref} ({', '.join(nets)})" for ref, nets in opens.items()))
-    defaults: dict[str, set[str]] = {}
-    for k, p in enumerate(params):
-        for name, src in p.source.items():
-            if src.startswith("default") and name in ("ios", "tcvos"):
-                defaults.setdefault(f"{name} {src}", set()).add(network.opamps[k].unit.part.ref)
-    for what, refs in sorted(defaults.items()):
-        names = sorted(refs, key=natural_key)
-        shown = ", ".join(names[:12]) + (f" and {len(names) - 12} more" if len(names) > 12 else "")
-        out.append(f"default parameter value used: {what} for {shown}")
-    return out

@@ -122,7 +122,9 @@ def _fail_on_option(command: Callable[..., Any]) -> Callable[..., Any]:
 
 @main.command()
 @click.argument("paths", nargs=-1, type=str)
-@_format_option(tuple(FORMATS), "json")
+@click.option("--format", "fmt", type=click.Choice(tuple(FORMATS)), default=None,
+              help="Output format. Default: text (the stage table) on a terminal; json when "
+                   "the output is piped, redirected or written with --output.")
 @_output_option
 @click.option("--temp", "temp", metavar="MIN:MAX", default=None,
               help="Operating temperature range in °C (default 0:70).")
@@ -186,6 +188,9 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
                                    "or --staged to audit changed designs under the current "
                                    "folder).")
         paths = (".",)
+    if fmt is None:
+        fmt = "text" if not output and sys.stdout.isatty() else "json"
+
     overrides = options_to_overrides(temp=temp, parts=parts, budget=budget, samples=samples,
                                      seed=seed)
     designs, missing = find_designs(list(paths))

@@ -169,8 +169,13 @@ class Finding:
     #: the finding's numbers as data (SI units, key names say which: ``*_v``, ``*_ohm``,
     #: ``*_a``), so a script need not parse the message
     data: dict[str, Any] = field(default_factory=dict)
+    #: the amplifier within the unit where one symbol unit holds several (else None)
+    channel: int | None = None
+    #: the stage identifier the reports use (``U4/2``; empty for a design-wide finding)
+    stage: str = ""
 
     def to_dict(self) -> dict[str, Any]:
         return {"rule": self.rule, "severity": self.severity, "ref": self.ref,
                 "unit": self.unit, "message": self.message, "suggestion": self.suggestion,
-                "sheet": self.sheet, "file": self.file, "data": dict(self.data)}
+                "sheet": self.sheet, "file": self.file, "data": dict(self.data),
+                "channel": self.channel, "stage": self.stage}

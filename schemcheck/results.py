@@ -14,6 +14,34 @@ from typing import Any
 
 from schemcheck.model import Finding
 
+#: What every analysis assumes, stated once per report; each design lists what is
+#: particular to it (its settings, ideal sources, potentiometers, parts left open).
+MODEL_ASSUMPTIONS = (
+    "capacitors are open and inductors/ferrite beads short at DC; potentiometers are two "
+    "resistors with the wiper at mid-travel; parts with no DC model are open",
+    "op-amps are ideal (infinite open-loop gain) unless an Aol is given; Vos in series with "
+    "the + input; Ib+ and Ib- flow into the pins",
+    "rails, ground and nets driven from outside are 0 V sources (through their annotated "
+    "source resistance): the analysis follows deviations only",
+    "worst case: every source at its worst sign, |s_vos|·Vos + |s_ib|·Ib + |s_ios|·Ios with "
+    "Ib+ = Ib + Ios/2 and Ib- = Ib - Ios/2, at nominal resistor values; RSS: the root of the "
+    "sum of the squares of the same terms",
+    "over temperature: the worst case at each end of the range, the larger; Vos grows by "
+    "TCVos per °C away from 25 °C; without hot values, FET-input bias currents double every "
+    "10 °C and bipolar ones are flat; hot values apply at the part's T_hot or else at the "
+    "top of the range",
+    "Monte Carlo: resistors uniform within tolerance; Vos, Ib, Ios Gaussian with the "
+    "maximum as 3 sigma and random sign; 99.7 % bound at the worse end of the temperature "
+    "range",
+    "error split: the own Vos, Ib and Ios terms at 25 °C, each upstream stage's worst-case "
+    "share (carried with the gain from its output) and the drift to the worse end of the "
+    "range add up to the worst case over temperature",
+    "part requirements: the largest Vos (with its drift), Ib and Ios over the range, each "
+    "alone or with the budget split evenly between them, once upstream stages take their "
+    "worst-case share at the worse end of the range",
+    "referred-to-input figures divide the output error by the noise gain",
+)
+
 CAUTION = ("These figures come from the schematic as drawn and the part data given; they "
            "do not replace a review by a qualified engineer or the applicable standards.")
 
@@ -25,6 +53,8 @@ class Sensitivity:
     vos: float | None = None  # V/V: the noise gain
     ib_plus: float | None = None  # V/A
     ib_minus: float | None = None  # V/A
+    ib: float | None = None  # V/A: ib_plus + ib_minus (Ib+ = Ib + Ios/2, Ib- = Ib - Ios/2)
+    ios: float | None = None  # V/A: (ib_plus - ib_minus) / 2
 
 
 @dataclass(slots=True)
@@ -53,6 +83,102 @@ class Contributor:
     ref: str
     unit: int | None
     worst_case_v: float | None
+    id: str = ""  # the stage identifier (``U4/1``)
+
+
+@dataclass(slots=True)
+class ErrorSplit:
+    """Where the stage's worst case over temperature comes from, volts.
+
+    ``vos_v + ib_v + ios_v`` is the own worst case at 25 °C; adding ``upstream_v`` (the
+    upstream stages' shares, listed under ``upstream``) gives the total at 25 °C, and
+    adding ``drift_v`` the worst case at ``worst_temp_c``. ``ib_plus_v`` and ``ib_minus_v``
+    are what each bias current alone gives (signed, Ib+ = Ib- = Ib); their sum is the Ib
+    term before its magnitude is taken. None where a figure is unknown."""
+
+    vos_v: float | None = None
+    ib_v: float | None = None
+    ios_v: float | None = None
+    ib_plus_v: float | None = None
+    ib_minus_v: float | None = None
+    upstream_v: float | None = None
+    drift_v: float | None = None
+    worst_temp_c: float | None = None
+
+
+@dataclass(slots=True)
+class Upstream:
+    """A stage feeding this one: the gain from its output to this output (V/V) and its
+    worst-case share of this output's error at 25 °C (V)."""
+
+    id: str
+    ref: str
+    unit: int | None
+    channel: int | None
+    gain: float | None
+    worst_case_v: float | None
+
+
+@dataclass(slots=True)
+class Compensation:
+    """The bias-current compensation at the + input: with matched bias currents (bipolar
+    inputs without internal cancellation) the Ib term vanishes when the + input sees what
+    the - input sees.
+
+    ``resistor`` is the one resistor from the + input to a rail, if that is all the + input
+    has; ``ideal_ohm`` is the value it should have, or (without one) the resistance to add
+    in series with the + input; None where the + input already sees more than the - input
+    and no resistor there can be lowered. ``useful`` False for parts whose bias currents do
+    not track (the resistor should then be 0 Ω), None where the part is not known."""
+
+    resistor: str | None = None
+    resistor_ohm: float | None = None
+    ideal_ohm: float | None = None
+    useful: bool | None = None
+
+
+@dataclass(slots=True)
+class PartRequirements:
+    """The largest own Vos, Ib and Ios that keep the stage within its budget, each alone and
+    with the budget left after upstream stages split evenly between the sources that reach
+    the output. Limits are maxima over the temperature range (Vos with its drift over
+    ``delta_t_c``); None: that source does not reach the output (no limit). Volts, amperes."""
+
+    budget_v: float
+    upstream_v: float | None  # upstream worst case at the worse end; None: not all known
+    upstream_unknown: list[str]  # stages feeding this one whose share is unknown
+    available_v: float  # budget minus the known upstream share (negative: already over)
+    delta_t_c: float
+    vos_alone_v: float | None
+    ib_alone_a: float | None
+    ios_alone_a: float | None
+    vos_split_v: float | None
+    ib_split_a: float | None
+    ios_split_a: float | None
+    part_vos_v: float | None  # the part's own figures at their largest over the range
+    part_ib_a: float | None
+    part_ios_a: float | None
+    part_within: bool | None  # the part's own worst case fits in what is available
+
+
+@dataclass(slots=True)
+class MissingPart:
+    """One part number without Vos, Ib or Ios, and the stages using it."""
+
+    part: str
+    missing: list[str]
+    units: int
+    stages: list[str] = field(default_factory=list)
+
+
+@dataclass(slots=True)
+class MissingAcross:
+    """One part number without data, across the designs of a report."""
+
+    part: str
+    missing: list[str]
+    units: int
+    designs: list[str] = field(default_factory=list)
 
 
 #: Field metadata: a field with a default that a report read back must still have.
@@ -88,6 +214,11 @@ class StageResult:
     within_budget: bool | None
     depends_on_undefined_output: bool
     contributors: list[Contributor] = field(default_factory=list)
+    id: str = ""  # the stage identifier every output uses (``U4/2``)
+    split: ErrorSplit | None = None
+    upstream: list[Upstream] = field(default_factory=list)
+    compensation: Compensation | None = None
+    requirements: PartRequirements | None = None
 
 
 @dataclass(slots=True)
@@ -99,6 +230,7 @@ class NotAnalysed:
     sheet: str
     value: str
     reason: str
+    id: str = ""
 
 
 @dataclass(slots=True)
@@ -113,6 +245,7 @@ class DesignResult:
     settings: dict[str, Any] = field(default_factory=dict)
     errors: list[str] = field(default_factory=list)
     caution: str = CAUTION
+    missing_parameters: list[MissingPart] = field(default_factory=list)
 
 
 @dataclass(slots=True)
@@ -143,4 +276,21 @@ class Report:
     designs: list[DesignResult] = field(default_factory=list, metadata=REQUIRED)
     stats: dict[str, int] = field(default_factory=dict)
     warnings: list[str] = field(default_factory=list)
+    #: the model's assumptions, the same for every design (each design lists its own)
+    assumptions: list[str] = field(default_factory=lambda: list(MODEL_ASSUMPTIONS))
+    missing_parameters: list[MissingAcross] = field(default_factory=list)
     shard: Shard | None = field(default=None, metadata=OMIT_WHEN_NONE)
+
+
+def missing_across(designs: list[dict[str, Any]]) -> list[MissingAcross]:
+    """The serialised designs' ``missing_parameters`` merged per part number."""
+    merged: dict[tuple[str, tuple[str, ...]], MissingAcross] = {}
+    for design in designs:
+        for item in design.get("missing_parameters") or ():
+            key = (item["part"], tuple(item["missing"]))
+            entry = merged.setdefault(key, MissingAcross(item["part"], list(item["missing"]),
+                                                         0, []))
+            entry.units += item["units"]
+            if design["file"] not in entry.designs:
+                entry.designs.append(design["file"])
+    return sorted(merged.values(), key=lambda m: (-m.units, m.part))

@@ -144,6 +144,7 @@ def format_si(value: float | None, unit: str, digits: int = 3) -> str:
     """``0.00123, 'V'`` -> ``1.23 mV``; None -> ``unknown``."""
     if value is None:
         return "unknown"
+    value = value + 0.0  # -0.0 -> 0.0
     if value == 0 or not math.isfinite(value):
         return f"{value:g} {unit}"
     magnitude = abs(value)

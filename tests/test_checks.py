@@ -34,7 +34,7 @@ def test_no_bias_path_through_capacitor():
                  f"U1 p=p m=m out=out {BIPOLAR}")
     assert rules(result) == [("no-bias-path", "error", "U1")]
     finding = result.findings[0]
-    assert finding.message == ("the non-inverting (+) input of U1 unit 1 (net p) has no DC path "
+    assert finding.message == ("the non-inverting (+) input of U1/1 (net p) has no DC path "
                                "for its bias current: it reaches the rest of the circuit only "
                                "through C1; the output has no defined DC level")
     stage = result.stages[0]

@@ -8,6 +8,8 @@ message is ours, the expected line and column are counted by hand in the file.
 from __future__ import annotations
 
 import json
+import os
+import pty
 import subprocess
 import sys
 
@@ -129,3 +131,40 @@ def test_top_level_help_example_runs_on_a_file_that_exists(monkeypatch):
     assert (ROOT / words[2]).is_file(), example
     code, _, _ = run(*words[1:], "--no-cache", "--samples", "0")
     assert code in (0, 1)
+
+
+# The POSIX rule that a program tells a terminal from a pipe with isatty(3), exercised
+# through a real pseudo-terminal: a person gets the table, a script keeps its JSON.
+def _audit_on(stdout_is_terminal: bool) -> str:
+    from .conftest import ROOT
+
+    command = [sys.executable, "-m", "schemcheck", "audit", "fixtures/demo/frontend.kicad_sch",
+               "--no-cache", "--samples", "0"]
+    env = {**os.environ, "CI": "1"}
+    if not stdout_is_terminal:
+        proc = subprocess.run(command, capture_output=True, text=True, cwd=ROOT, env=env)
+        return proc.stdout
+    leader, follower = pty.openpty()
+    with subprocess.Popen(command, stdout=follower, stderr=subprocess.DEVNULL, cwd=ROOT,
+                          env=env) as proc:
+        os.close(follower)
+        chunks = []
+        while True:
+            try:
+                chunk = os.read(leader, 65536)
+            except OSError:  # the terminal closes when the program ends
+                break
+            if not chunk:
+                break
+            chunks.append(chunk)
+        proc.wait()
+    os.close(leader)
+    return b"".join(chunks).decode("utf-8").replace("\r\n", "\n")
+
+
+def test_terminal_gets_the_table_and_a_pipe_gets_json():
+    piped = _audit_on(False)
+    assert json.loads(piped)["designs"][0]["stages"]
+    shown = _audit_on(True)
+    assert shown.startswith("design: fixtures/demo/frontend.kicad_sch\n")
+    assert "\nstages:\n  stage " in shown

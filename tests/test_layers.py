@@ -20,7 +20,7 @@ LAYERS = [
     {"io"},  # files in
     {"circuit"},  # drawing -> nets
     {"engine"},  # recognise, build the DC network, solve, budget
-    {"results", "checks"},  # what an audit says; one module per rule
+    {"results", "checks", "assumptions"},  # what an audit says; one module per rule
     {"audit"},  # the pure pipeline: netlist in, results out
     {"report"},  # results -> json, text, markdown, sarif
     {"run", "characterise"},  # the edges: batch, cache, settings, worker processes; lab

@@ -27,6 +27,12 @@ PAIRS = [
     (results.ParamsUsed, schemas.ParamsSchema),
     (results.Contributor, schemas.ContributorSchema),
     (results.NotAnalysed, schemas.NotAnalysedSchema),
+    (results.ErrorSplit, schemas.ErrorSplitSchema),
+    (results.Upstream, schemas.UpstreamSchema),
+    (results.Compensation, schemas.CompensationSchema),
+    (results.PartRequirements, schemas.PartRequirementsSchema),
+    (results.MissingPart, schemas.MissingPartSchema),
+    (results.MissingAcross, schemas.MissingAcrossSchema),
     (Finding, schemas.FindingSchema),
 ]
 

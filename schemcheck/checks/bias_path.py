@@ -37,5 +37,5 @@ def check_bias_path(ctx: StageContext) -> list[Finding]:
                 f"current: {how}; the output has no defined DC level",
                 "add a resistor from that input to ground or to the bias point to carry the "
                 "bias current, sized so that Ib x R stays within the budget",
-                sheet, data={"input": sign, "net": net, "through": caps}))
+                sheet, data={"input": sign, "net": net, "through": caps}, **ctx.ids(k)))
     return findings

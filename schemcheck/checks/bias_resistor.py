@@ -70,7 +70,7 @@ def check_bias_resistor(ctx: StageContext) -> list[Finding]:
                 f"replace {comp.ref} with 0 Ω (or a wire); keep it only if it also protects the "
                 "input, and then budget its error", sheet,
                 data={"resistor": comp.ref, "resistor_ohm": comp.ohms,
-                      "added_error_v": added}))
+                      "added_error_v": added}, **ctx.ids(k)))
             continue
         worst = _worst(s_vos, s_p, s_m, vos, ib, ios)
         if r_plus > 0.01 * r_minus:
@@ -97,7 +97,7 @@ def check_bias_resistor(ctx: StageContext) -> list[Finding]:
                 "at the output", fix, sheet,
                 data={"resistance_plus_ohm": r_plus, "resistance_minus_ohm": r_minus,
                       "bias_error_v": bias_term, "suggested_ohm": ideal,
-                      "resistor": comp.ref if comp is not None else None}))
+                      "resistor": comp.ref if comp is not None else None}, **ctx.ids(k)))
         elif r_minus > 0:
             improved = _worst(s_vos, s_p - r_minus * s_vos, s_m, vos, ib, ios)
             if improved < 0.5 * worst:
@@ -109,5 +109,6 @@ def check_bias_resistor(ctx: StageContext) -> list[Finding]:
                     f"add {_ohms(r_minus)} ({_values(r_minus)}) in series with the + input, "
                     "bypassed with a capacitor if noise matters", sheet,
                     data={"resistance_minus_ohm": r_minus, "worst_case_v": worst,
-                          "worst_case_after_v": improved, "suggested_ohm": r_minus}))
+                          "worst_case_after_v": improved, "suggested_ohm": r_minus},
+                    **ctx.ids(k)))
     return findings

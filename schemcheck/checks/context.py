@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
 
 from schemcheck.engine.budget import StageBudget
 from schemcheck.engine.dcerror import Solution
@@ -24,7 +25,10 @@ class StageContext:
         return part.ref, part.unit, part.sheet
 
     def name(self, k: int) -> str:
+        """The stage identifier (``U4/2``), the same in every output."""
+        return self.network.opamps[k].unit.name
+
+    def ids(self, k: int) -> dict[str, Any]:
+        """The keyword arguments that tie a finding to op-amp k's stage."""
         unit = self.network.opamps[k].unit
-        suffix = f" unit {unit.part.unit}" if unit.part.unit_count > 1 else ""
-        channel = f" amplifier {unit.channel}" if unit.channel else ""
-        return f"{unit.part.ref}{suffix}{channel}"
+        return {"channel": unit.channel, "stage": unit.name}

@@ -22,5 +22,6 @@ def check_feedback(ctx: StageContext) -> list[Finding]:
             "output drifts to a rail",
             "add a resistor across the feedback capacitor (or another DC path to the - input) "
             "to set the DC gain; if this is a comparator, set the field Opamp=no",
-            sheet, data={"net_minus": op.minus, "net_out": op.out, "through": caps}))
+            sheet, data={"net_minus": op.minus, "net_out": op.out, "through": caps},
+            **ctx.ids(k)))
     return findings

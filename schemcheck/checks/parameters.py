@@ -1,4 +1,5 @@
-"""``missing-parameters``: an op-amp with no Vos, Ib or Ios."""
+"""``missing-parameters``: a part number with no Vos, Ib or Ios, once per part number
+(its value as drawn) and set of missing figures, naming every stage that uses it."""
 
 from __future__ import annotations
 
@@ -8,21 +9,31 @@ from schemcheck.checks.context import StageContext
 _NAMES = {"vos": "Vos", "ib": "Ib", "ios": "Ios"}
 
 
+def missing_by_part(ctx: StageContext) -> dict[tuple[str, tuple[str, ...]], list[int]]:
+    """(part number, missing figures) -> the op-amps using it, in network order."""
+    groups: dict[tuple[str, tuple[str, ...]], list[int]] = {}
+    for k, params in enumerate(ctx.params):
+        missing = tuple(params.missing())
+        if missing:
+            value = ctx.network.opamps[k].unit.part.value
+            groups.setdefault((value, missing), []).append(k)
+    return groups
+
+
 def check_parameters(ctx: StageContext) -> list[Finding]:
     findings = []
-    seen: set[tuple[str, int]] = set()
-    for k, params in enumerate(ctx.params):
-        missing = params.missing()
-        ref, unit, sheet = ctx.who(k)
-        if not missing or (ref, unit) in seen:
-            continue
-        seen.add((ref, unit))
-        value = ctx.network.opamps[k].unit.part.value
+    for (value, missing), opamps in missing_by_part(ctx).items():
+        first = opamps[0]
+        ref, unit, sheet = ctx.who(first)
+        stages = [ctx.name(k) for k in opamps]
         names = ", ".join(_NAMES[m] for m in missing)
+        count = f"{len(stages)} units" if len(stages) > 1 else "1 unit"
         findings.append(Finding(
             "missing-parameters", "warning", ref, unit,
-            f"{ctx.name(k)} ({value}) has no {names}: its sensitivities are reported, its "
-            "error is unknown",
+            f"{value} ({count}: {', '.join(stages)}) has no {names}: the stages' "
+            "sensitivities and part requirements are reported, their error is unknown",
             f"add the fields {names} to the symbol, or an entry for {value!r} to the parts "
-            "library", sheet, data={"missing": list(missing), "value": value}))
+            "library", sheet,
+            data={"missing": list(missing), "value": value, "stages": stages,
+                  "units": len(stages)}, **ctx.ids(first)))
     return findings

@@ -8,7 +8,8 @@ Modified nodal analysis over each connected part of the network, every op-amp in
 * Ib+ and Ib- flow into the pins (out of the nets);
 * one solve with every error source as a right-hand-side column gives all
   sensitivities at once, so chains, feedback around several op-amps and shared nodes
-  need no special cases.
+  need no special cases; rounding noise far below a row's scale is taken as 0
+  (:data:`NOISE`).
 
 An op-amp whose input has no DC path (``no-bias-path``) or whose output has no DC path
 back to its inverting input (``no-dc-feedback``) has no defined DC output. It is solved
@@ -26,6 +27,10 @@ import numpy as np
 from schemcheck.engine.network import Network
 
 SOURCES = ("vos", "ib_plus", "ib_minus")
+#: A sensitivity below this share of its row's scale (the largest Vos gain, times the
+#: largest resistance of the network for the V/A ones) is rounding noise of the solve
+#: (like 6e-20 V/A where an ideal output absorbs a current) and is taken as 0.
+NOISE = 1e-10
 
 
 @dataclass(slots=True)
@@ -263,12 +268,17 @@ def solve(network: Network) -> Solution:
                 if status[k] == "ok":
                     status[k] = "unsolvable"
             continue
+        ohms = max((network.resistors[i].ohms for i in component.resistors), default=1.0)
         for k, row in system.out_rows.items():
             values = x[row]
+            gain = max([1.0] + [abs(v) for (_, source), v in zip(system.columns, values)
+                                if source == "vos"])
             for (j, source), value in zip(system.columns, values):
                 if source == "unknown":
                     if abs(value) > 1e-12:
                         solution.tainted[k] = True
-                elif value != 0.0:
+                    continue
+                scale = gain if source == "vos" else gain * max(ohms, 1.0)
+                if abs(value) > NOISE * scale:
                     solution.sensitivity[k][(j, source)] = float(value)
     return solution

@@ -59,6 +59,25 @@ class OpampUnit:
     def key(self) -> tuple[str, int, int | None]:
         return (self.part.ref, self.part.unit, self.channel)
 
+    @property
+    def name(self) -> str:
+        """The stage identifier every report uses (see :func:`amplifier_name`)."""
+        return amplifier_name(self.part, self.channel)
+
+
+def amplifier_name(part: Part, channel: int | None = None) -> str:
+    """One amplifier's identifier, the same whether the design was read from the schematic
+    or from its exported netlist: the reference alone for a part with one amplifier;
+    ``U8/2`` for the second amplifier, numbered by its unit in a multi-unit symbol or by
+    its channel where one unit holds several (an exported netlist has no units: its
+    amplifiers are numbered by output pin, which for the usual dual and quad pinouts is
+    the unit order); ``U8/1.2`` only where several units each hold several amplifiers."""
+    if channel is None:
+        return part.ref if part.unit_count <= 1 else f"{part.ref}/{part.unit}"
+    if part.unit_count <= 1:
+        return f"{part.ref}/{channel}"
+    return f"{part.ref}/{part.unit}.{channel}"
+
 
 @dataclass(frozen=True, slots=True)
 class SkippedAmplifier:

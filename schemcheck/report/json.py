@@ -14,8 +14,8 @@ from typing import Any
 
 from schemcheck.model import Finding
 from schemcheck.results import (
-    Contributor, DesignResult, NotAnalysed, ParamsUsed, Report, Sensitivity, Shard, StageResult,
-    Tool,
+    Compensation, Contributor, DesignResult, ErrorSplit, MissingAcross, MissingPart, NotAnalysed,
+    ParamsUsed, PartRequirements, Report, Sensitivity, Shard, StageResult, Tool, Upstream,
 )
 
 
@@ -53,7 +53,11 @@ def stage_from_data(data: dict[str, Any]) -> StageResult:
     return _build(StageResult, data, {
         "sensitivity": lambda d: _build(Sensitivity, d, {}),
         "params": lambda d: _build(ParamsUsed, d, {}),
-        "contributors": lambda items: [_build(Contributor, c, {}) for c in items]})
+        "contributors": lambda items: [_build(Contributor, c, {}) for c in items],
+        "split": lambda d: _build(ErrorSplit, d, {}),
+        "upstream": lambda items: [_build(Upstream, u, {}) for u in items],
+        "compensation": lambda d: _build(Compensation, d, {}),
+        "requirements": lambda d: _build(PartRequirements, d, {})})
 
 
 def design_from_data(data: dict[str, Any]) -> DesignResult:
@@ -61,14 +65,16 @@ def design_from_data(data: dict[str, Any]) -> DesignResult:
     return _build(DesignResult, data, {
         "stages": lambda items: [stage_from_data(s) for s in items],
         "findings": lambda items: [_build(Finding, f, {}) for f in items],
-        "not_analysed": lambda items: [_build(NotAnalysed, n, {}) for n in items]})
+        "not_analysed": lambda items: [_build(NotAnalysed, n, {}) for n in items],
+        "missing_parameters": lambda items: [_build(MissingPart, m, {}) for m in items]})
 
 
 def report_from_data(data: dict[str, Any]) -> Report:
     return _build(Report, data, {
         "tool": lambda d: _build(Tool, d, {}),
         "shard": lambda d: _build(Shard, d, {}),
-        "designs": lambda items: [design_from_data(d) for d in items]})
+        "designs": lambda items: [design_from_data(d) for d in items],
+        "missing_parameters": lambda items: [_build(MissingAcross, m, {}) for m in items]})
 
 
 def _type_problem(hint: Any, value: Any, trail: str) -> tuple[str, str] | None:

@@ -33,8 +33,8 @@ def sarif(report: dict[str, Any], base: str | None = None) -> dict[str, Any]:
         for f in design["findings"]:
             location = {"physicalLocation": {"artifactLocation": {
                 "uri": _uri(f.get("file") or design["file"], base)}}}
-            if f["ref"]:
-                name = f["ref"] + (f" unit {f['unit']}" if f.get("unit") else "")
+            if f["ref"]:  # the stage identifier of the text and Markdown outputs
+                name = f.get("stage") or f["ref"] + (f"/{f['unit']}" if f.get("unit") else "")
                 location["logicalLocations"] = [{"name": name, "kind": "element"}]
             results.append({
                 "ruleId": f["rule"], "ruleIndex": rule_ids.index(f["rule"]),

@@ -18,7 +18,7 @@ from schemcheck.errors import ParseError, SchemcheckError
 from schemcheck.io.discover import DesignRef, find_designs
 from schemcheck.model import Finding
 from schemcheck.report.json import to_data
-from schemcheck.results import DesignResult, Report, Tool
+from schemcheck.results import DesignResult, Report, Tool, missing_across
 from schemcheck.settings import Settings
 
 UNREADABLE = "unreadable-design"
@@ -154,6 +154,7 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
                                    "audited": len(todo)},
                             warnings=list(cache.warnings) if cache is not None else []))
     report["designs"] = shown  # already in their serialised form
+    report["missing_parameters"] = to_data(missing_across(shown))
     return report
 
 

@@ -16,6 +16,8 @@ from typing import Any
 
 from schemcheck.errors import ParseError, SchemcheckError
 from schemcheck.io.discover import DesignRef
+from schemcheck.report.json import to_data
+from schemcheck.results import missing_across
 
 
 @dataclass(frozen=True, slots=True)
@@ -117,6 +119,8 @@ def merge_reports(reports: list[tuple[str, dict[str, Any]]]) -> dict[str, Any]:
     merged["stats"] = stats
     merged["warnings"] = list(dict.fromkeys(w for _, r in reports
                                             for w in r.get("warnings", [])))
+    merged["assumptions"] = list(reports[0][1].get("assumptions", []))
+    merged["missing_parameters"] = to_data(missing_across(designs))
     return merged
 
 
