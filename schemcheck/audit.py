@@ -16,6 +16,8 @@ from schemcheck.engine.dcerror import Solution, solve
 from schemcheck.model import Finding, Netlist, natural_key
 from schemcheck.engine.network import Network, build_network
 from schemcheck.engine.params import OpampParams, ParameterError, resolve
+from schemcheck.engine.partmatch import PartsLibrary, sources_line
+from schemcheck.partdata import DISPLAY
 from schemcheck.run.settings import Settings
 from schemcheck.engine.stages import recognise
 from schemcheck.engine.topology import label
@@ -34,12 +36,14 @@ class DesignAudit:
     not_analysed: list[dict[str, Any]] = field(default_factory=list)
     settings: dict[str, Any] = field(default_factory=dict)
     errors: list[str] = field(default_factory=list)
+    parts_libraries: list[dict[str, Any]] = field(default_factory=list)
 
     def to_dict(self) -> dict[str, Any]:
         return {"file": self.file, "stages": self.stages,
                 "findings": [f.to_dict() for f in self.findings],
                 "assumptions": self.assumptions, "not_analysed": self.not_analysed,
-                "settings": self.settings, "errors": self.errors, "caution": CAUTION}
+                "settings": self.settings, "errors": self.errors, "caution": CAUTION,
+                "parts_libraries": self.parts_libraries}
 
 
 def _budget_limit(netlist_part, settings: Settings, problems: list[str]) -> float | None:
@@ -54,11 +58,14 @@ def _budget_limit(netlist_part, settings: Settings, problems: list[str]) -> floa
 
 
 def audit_netlist(netlist: Netlist, settings: Settings,
-                  library: Mapping[str, Mapping[str, Any]] | None = None) -> DesignAudit:
-    """Audit every op-amp stage of ``netlist``."""
-    library = library or {}
+                  library: PartsLibrary | Mapping[str, Mapping[str, Any]] | None = None
+                  ) -> DesignAudit:
+    """Audit every op-amp stage of ``netlist`` (``library``: the parts libraries read,
+    or one plain mapping of entries)."""
+    library = PartsLibrary.of(library)
     result = DesignAudit(file=netlist.source, settings=settings.describe(),
-                         errors=list(netlist.errors))
+                         errors=list(netlist.errors),
+                         parts_libraries=[s.to_dict() for s in library.sources])
     units, skipped = recognise(netlist.parts)
     for s in skipped:
         result.not_analysed.append({"ref": s.part.ref, "unit": s.part.unit, "sheet": s.part.sheet,
@@ -75,7 +82,7 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     params: list[OpampParams] = []
     for op in network.opamps:
         try:
-            p = resolve(op.unit.part, library)
+            p = resolve(op.unit.part, library, estimate=settings.estimate_missing)
         except ParameterError as error:
             problems.append(str(error))
             p = OpampParams(source={"error": str(error)})
@@ -87,9 +94,11 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     mc = monte_carlo(network, solution, params, settings.temp_range, settings.mc_samples,
                      settings.seed) if settings.mc_samples > 0 else {}
     limits = [_budget_limit(op.unit.part, settings, problems) for op in network.opamps]
-    ctx = StageContext(network, solution, params, budgets, limits, settings.temp_range)
+    ctx = StageContext(network, solution, params, budgets, limits, settings.temp_range,
+                       settings.estimate_missing)
     findings: list[Finding] = []
     for rule_check in (checks.check_bias_path, checks.check_feedback, checks.check_parameters,
+                       checks.check_part_match, checks.check_estimates,
                        checks.check_bias_resistor, checks.check_budget):
         findings.extend(rule_check(ctx))
     for error in netlist.errors:  # a child sheet that could not be read
@@ -103,6 +112,8 @@ def audit_netlist(netlist: Netlist, settings: Settings,
                      for k in range(len(network.opamps))]
     result.assumptions = _assumptions(network, solution, settings, params) + [
         f"problem: {p}" for p in problems]
+    if library.sources:
+        result.assumptions.append(sources_line(library.sources))
     if skipped:
         result.assumptions.append("amplifiers recognised but not analysed (listed under "
                                   "not_analysed) are treated as open at DC")
@@ -113,7 +124,15 @@ def _params_dict(p: OpampParams) -> dict[str, Any]:
     return {"vos": p.vos, "ib": p.ib, "ios": p.ios, "tcvos": p.tcvos, "ib_hot": p.ib_hot,
             "ios_hot": p.ios_hot, "t_hot": p.t_hot, "input": p.input_type, "aol": p.aol,
             "ib_either_sign": p.ib_either_sign, "typical": dict(p.typical),
-            "library_entry": p.library_entry, "source": dict(p.source)}
+            "library_entry": p.library_entry, "source": dict(p.source),
+            "typical_only": list(p.typical_only),
+            "estimate": ({"class": p.estimate_class, "figures": list(p.estimated)}
+                         if p.estimated else None),
+            "match": p.match.to_dict() if p.match is not None else None,
+            "ambiguous_match": ({"key": p.ambiguity.key,
+                                 "candidates": list(p.ambiguity.candidates),
+                                 "reason": p.ambiguity.reason}
+                                if p.ambiguity is not None else None)}
 
 
 def _stage_dict(network: Network, solution: Solution, params: list[OpampParams],
@@ -196,7 +215,32 @@ def _assumptions(network: Network, solution: Solution, settings: Settings,
             if src.startswith("default") and name in ("ios", "tcvos"):
                 defaults.setdefault(f"{name} {src}", set()).add(network.opamps[k].unit.part.ref)
     for what, refs in sorted(defaults.items()):
-        names = sorted(refs, key=natural_key)
-        shown = ", ".join(names[:12]) + (f" and {len(names) - 12} more" if len(names) > 12 else "")
-        out.append(f"default parameter value used: {what} for {shown}")
+        out.append(f"default parameter value used: {what} for {_refs(refs)}")
+    typical: dict[str, set[str]] = {}
+    estimated: dict[str, set[str]] = {}
+    flat_chopper: set[str] = set()
+    for k, p in enumerate(params):
+        ref = network.opamps[k].unit.part.ref
+        for name in p.typical_only:
+            typical.setdefault(DISPLAY[name], set()).add(ref)
+        if p.estimated:
+            estimated.setdefault(p.estimate_class or "", set()).add(ref)
+        if p.input_type == "chopper" and p.ib is not None and p.ib_hot is None:
+            flat_chopper.add(ref)
+    for name, refs in sorted(typical.items()):
+        out.append(f"typical only (no maximum given; the true worst case can be larger): "
+                   f"{name} of {_refs(refs)}")
+    if flat_chopper:
+        out.append("chopper (zero-drift) inputs without hot values: bias currents taken as "
+                   "flat over temperature (set by the input switching, not doubling like a "
+                   f"FET's) for {_refs(flat_chopper)}")
+    for kind, refs in sorted(estimated.items()):
+        out.append(f"estimate (class {kind}): missing figures of {_refs(refs)} filled from "
+                   "class values, common practice orders of magnitude and no datasheet; "
+                   "their budgets are orders of magnitude only")
     return out
+
+
+def _refs(refs: set[str]) -> str:
+    names = sorted(refs, key=natural_key)
+    return ", ".join(names[:12]) + (f" and {len(names) - 12} more" if len(names) > 12 else "")

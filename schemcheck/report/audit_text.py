@@ -11,6 +11,29 @@ def _v(value: float | None) -> str:
     return format_si(value, "V")
 
 
+_NAMES = {"vos": "Vos", "ib": "Ib", "ios": "Ios", "tcvos": "TCVos", "ib_hot": "Ib_hot",
+          "ios_hot": "Ios_hot"}
+
+
+def figure_marks(stage: dict[str, Any]) -> list[str]:
+    """What a stage's budget rests on besides maxima: ``typical only: TCVos``,
+    ``estimate (class jfet): Vos, Ib, Ios``, the library entry found by family."""
+    params = stage.get("params") or {}
+    marks = []
+    if params.get("typical_only"):
+        marks.append("typical only: " + ", ".join(_NAMES.get(n, n)
+                                                  for n in params["typical_only"]))
+    estimate = params.get("estimate")
+    if estimate:
+        marks.append(f"estimate (class {estimate['class']}): "
+                     + ", ".join(_NAMES.get(n, n) for n in estimate["figures"]))
+    how = next((v for v in (params.get("source") or {}).values()
+                if v.startswith("library:") and " via " in v), None)
+    if how:
+        marks.append(how.removesuffix(" (typical only)"))
+    return marks
+
+
 def audit_text(report: dict[str, Any]) -> str:
     lines: list[str] = []
     for design in report["designs"]:
@@ -35,6 +58,9 @@ def audit_text(report: dict[str, Any]) -> str:
                 f"{_v(s['worst_case_total_v']):>11} {_v(s['rss_v']):>11} "
                 f"{_v(s['worst_case_over_temp_v']):>11} {_v(s['monte_carlo_v']):>11} "
                 f"{budget:>10}  {verdict}")
+            marks = figure_marks(s)
+            if marks:
+                lines.append(f"  {'':<14} " + "; ".join(marks))
         if not design["stages"]:
             lines.append("  (no op-amp stages found)")
         for item in design["not_analysed"]:

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from schemcheck.report.audit_text import figure_marks
 from schemcheck.units import format_si
 
 _ICON = {"error": "**error**", "warning": "warning", "info": "info"}
@@ -25,8 +26,9 @@ def _stage_line(s: dict[str, Any]) -> str:
     else:
         verdict, checked = "**FAIL**", " "
     budget = format_si(s["budget_v"], "V") if s["budget_v"] is not None else "none"
+    marks = "".join(f"; {mark}" for mark in figure_marks(s))
     return (f"- [{checked}] {name} ({s['value']}, {s['sheet']}): {s['topology']}, noise gain "
-            f"{gain}, worst case {worst} over temperature, budget {budget}: {verdict}")
+            f"{gain}, worst case {worst} over temperature, budget {budget}: {verdict}{marks}")
 
 
 def checklist(report: dict[str, Any]) -> str:
