@@ -298,7 +298,8 @@ def parts_skeleton(paths: tuple[str, ...], output: str | None, parts_file: str |
 
     Each entry names the units using it, how it is matched and its family key, with
     every figure's meaning and unit and empty typ/max to fill from the datasheet.
-    Without -o the library is printed.
+    Without -o the library is printed. Exit status 0, or 2 when a design or library
+    could not be read.
 
     \b
     Example:
@@ -310,6 +311,7 @@ def parts_skeleton(paths: tuple[str, ...], output: str | None, parts_file: str |
     wanted = [p for p in report["parts"] if p["field"] != "Reference"]
     _, text, added, present = skeleton_library(output, wanted)
     if output:
+        os.makedirs(os.path.dirname(os.path.abspath(output)), exist_ok=True)
         write_library(output, text)
         click.echo(f"{output}: {len(added)} entr{'y' if len(added) == 1 else 'ies'} added"
                    + (f" ({', '.join(added)})" if added else "")

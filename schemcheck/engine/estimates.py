@@ -36,7 +36,8 @@ _WORDS = {
     "jfet": re.compile(r"\bj-?fet\b", re.IGNORECASE),
     "cmos": re.compile(r"\bcmos\b", re.IGNORECASE),
     # "bipolar supply" / "bipolar output" speak of the supply or the output, not the inputs
-    "bipolar": re.compile(r"\bbipolar\b(?!\s*(?:suppl|power|output|rail|swing|signal))", re.IGNORECASE),
+    "bipolar": re.compile(r"\bbipolar\b(?!\s*(?:suppl|power|output|rail|swing|signal))",
+                          re.IGNORECASE),
 }
 
 

@@ -236,6 +236,8 @@ def with_defaults(params: OpampParams, *, estimate: bool = False) -> OpampParams
     if params.ios is None and params.ib is not None:
         changes["ios"] = params.ib
         source["ios"] = "default (Ios = Ib)"
+        if "ib" in params.typical_only:  # taken from a typical figure, so typical too
+            changes["typical_only"] = (*params.typical_only, "ios")
     estimated: list[str] = []
     if estimate and params.input_type in CLASS_VALUES:
         values = CLASS_VALUES[params.input_type]

@@ -25,8 +25,8 @@ earlier one, and its names and aliases win over theirs.
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass, field
 from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, field
 from typing import Any
 
 from schemcheck.model import Part

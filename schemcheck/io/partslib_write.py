@@ -100,7 +100,7 @@ SKELETON_HEADER = (
 )
 
 
-def skeleton_entry(part: dict[str, Any]):
+def skeleton_entry(part: dict[str, Any]) -> tomlkit.items.Table:
     """The commented TOML table of one missing part (``part``: one row of
     :func:`schemcheck.run.parts.missing_parts`)."""
     from schemcheck.partdata import FIGURES, INPUT_TYPES
@@ -119,7 +119,13 @@ def skeleton_entry(part: dict[str, Any]):
         table.add(tomlkit.comment(f"family key {part['family']}: an entry named "
                                   f"\"{part['family']}\" would match every part number of "
                                   "the family (grades too)"))
-    table.add("description", part.get("description") or "")
+    if part.get("ambiguous"):
+        table.add(tomlkit.comment(f"the library has {', '.join(part['ambiguous'])} of its "
+                                  "family: if one has the same figures, add this part number "
+                                  "to its aliases instead"))
+    if part.get("description"):
+        table.add(tomlkit.comment(f"symbol description: {part['description']}"))
+    table.add("description", "")
     table.add("input", part.get("input") or "")
     table["input"].comment(" | ".join(INPUT_TYPES)
                            + ("  (from the symbol: check it)" if part.get("input") else ""))

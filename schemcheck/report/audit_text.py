@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from schemcheck.partdata import DISPLAY
 from schemcheck.units import format_si
 
 
@@ -11,8 +12,7 @@ def _v(value: float | None) -> str:
     return format_si(value, "V")
 
 
-_NAMES = {"vos": "Vos", "ib": "Ib", "ios": "Ios", "tcvos": "TCVos", "ib_hot": "Ib_hot",
-          "ios_hot": "Ios_hot"}
+_NAMES = DISPLAY
 
 
 def figure_marks(stage: dict[str, Any]) -> list[str]:

@@ -4,10 +4,10 @@ from __future__ import annotations
 
 from typing import Any
 
+from schemcheck.partdata import DISPLAY
 from schemcheck.units import format_si
 
-_NAMES = {"vos": "Vos", "ib": "Ib", "ios": "Ios", "tcvos": "TCVos", "ib_hot": "Ib_hot",
-          "ios_hot": "Ios_hot"}
+_NAMES = DISPLAY
 _UNITS = {"vos": "V", "ib": "A", "ios": "A", "tcvos": "V/°C", "ib_hot": "A", "ios_hot": "A"}
 
 
@@ -50,12 +50,12 @@ def missing_text(report: dict[str, Any]) -> str:
     return "\n".join(lines) + "\n"
 
 
-def _pair(figure: dict[str, float | None] | None, unit: str) -> str:
+def _pair(figure: dict[str, float | None] | None, unit: str, sign: str = "") -> str:
     if not figure:
         return "-"
-    typ = format_si(figure["typ"], unit).replace(" ", "") if figure["typ"] is not None else "-"
-    mx = format_si(figure["max"], unit).replace(" ", "") if figure["max"] is not None else "-"
-    return f"{typ} / {mx}"
+    shown = [sign + format_si(figure[k], unit).replace(" ", "") if figure[k] is not None
+             else "-" for k in ("typ", "max")]
+    return " / ".join(shown)
 
 
 def check_text(report: dict[str, Any]) -> str:
@@ -70,9 +70,8 @@ def check_text(report: dict[str, Any]) -> str:
     for entry in entries:
         cells = []
         for name in names:
-            cell = _pair(entry["figures"].get(name), _UNITS[name])
-            if name == "ib" and entry["ib_either_sign"] and cell != "-":
-                cell = "±" + cell.replace(" / ", " / ±").replace("±-", "-")
+            sign = "±" if name == "ib" and entry["ib_either_sign"] else ""
+            cell = _pair(entry["figures"].get(name), _UNITS[name], sign)
             cells.append(f" {cell:<24}")
         t_hot = f"{entry['t_hot']:g}" if entry["t_hot"] is not None else "-"
         lines.append((f"  {entry['name']:<14} {entry['input']:<20}" + "".join(cells)

@@ -11,13 +11,16 @@ import os
 import sys
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import replace
-from typing import Any, Callable
+from typing import TYPE_CHECKING, Any, Callable
 
 from schemcheck import __version__
 from schemcheck.audit import CAUTION
 from schemcheck.errors import SchemcheckError
 from schemcheck.io.discover import DesignRef, find_designs
 from schemcheck.run.settings import Settings
+
+if TYPE_CHECKING:
+    from schemcheck.engine.partmatch import PartsLibrary
 
 UNREADABLE = "unreadable-design"
 
@@ -74,10 +77,12 @@ def _unreadable(root: str, message: str, settings: Settings | None = None) -> di
                           "schematic editor", "sheet": "", "file": root}]}
 
 
-_LIBRARIES: dict[str, tuple[float, dict]] = {}
+#: path -> (content digest, entries): a library is parsed again only when its content
+#: changed (a modification time can stay the same across a quick edit)
+_LIBRARIES: dict[str, tuple[str, dict]] = {}
 
 
-def read_libraries(root: str, settings: Settings):
+def read_libraries(root: str, settings: Settings) -> PartsLibrary:
     """The parts libraries ``settings`` name, read and laid over each other (a
     :class:`schemcheck.engine.partmatch.PartsLibrary`); paths shown relative to the
     design's folder (the user's library as an absolute path)."""
@@ -87,7 +92,9 @@ def read_libraries(root: str, settings: Settings):
     layers = []
     folder = os.path.dirname(os.path.abspath(root))
     for origin, path in settings.parts_libraries():
-        stamp = os.path.getmtime(path)
+        from schemcheck.run.cache import file_digest
+
+        stamp = file_digest(path)
         cached = _LIBRARIES.get(path)
         if cached is None or cached[0] != stamp:
             cached = _LIBRARIES[path] = (stamp, load_parts_library(path))
