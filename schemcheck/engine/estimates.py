@@ -10,6 +10,7 @@ the class usually guarantees; they come from no datasheet and no published sourc
 from __future__ import annotations
 
 import re
+from functools import lru_cache
 
 #: Class -> maximum at 25 °C (V, A, A, V/°C). Common practice orders of magnitude, no source.
 CLASS_VALUES: dict[str, dict[str, float]] = {
@@ -41,6 +42,7 @@ _WORDS = {
 }
 
 
+@lru_cache(maxsize=4096)  # one description per library symbol, seen on many parts
 def input_type_from_text(text: str) -> str | None:
     """The input type a symbol's description or keywords name (``JFET``, ``CMOS``,
     ``zero-drift``, ``chopper``, ``bipolar``), or None when they name none or several."""
