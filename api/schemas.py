@@ -39,6 +39,33 @@ class SensitivitySchema(Schema):
     ios = _num(metadata={"description": "V/A: (ib_plus - ib_minus) / 2"})
 
 
+class EstimateSchema(Schema):
+    class_ = fields.String(data_key="class", attribute="class",
+                           metadata={"description": "input class whose values were used"})
+    figures = fields.List(fields.String())
+
+
+class MatchSchema(Schema):
+    entry = fields.String()
+    by = fields.String(metadata={"description": "value, part-number, lib_id or family"})
+    field = fields.String(metadata={"description": "Value, the part-number field, or lib_id"})
+    key = fields.String()
+    matched = fields.String(metadata={"description": "the entry name or alias met"})
+    library = fields.String(allow_none=True)
+
+
+class AmbiguousMatchSchema(Schema):
+    key = fields.String()
+    candidates = fields.List(fields.String())
+    reason = fields.String()
+
+
+class LibrarySourceSchema(Schema):
+    origin = fields.String(metadata={"description": "user, project or command line"})
+    path = fields.String()
+    entries = fields.Integer()
+
+
 class ParamsSchema(Schema):
     vos = _num()
     ib = _num()
@@ -53,6 +80,11 @@ class ParamsSchema(Schema):
     typical = fields.Dict(keys=fields.String(), values=fields.Float(allow_nan=False))
     library_entry = fields.String(allow_none=True)
     source = fields.Dict(keys=fields.String(), values=fields.String())
+    typical_only = fields.List(fields.String(), metadata={
+        "description": "figures for which only a typical value was given (and used)"})
+    estimate = fields.Nested(EstimateSchema, allow_none=True)
+    match = fields.Nested(MatchSchema, allow_none=True)
+    ambiguous_match = fields.Nested(AmbiguousMatchSchema, allow_none=True)
 
 
 class ContributorSchema(Schema):
@@ -177,6 +209,7 @@ class DesignSchema(Schema):
     errors = fields.List(fields.String())
     caution = fields.String()
     missing_parameters = fields.List(fields.Nested(MissingPartSchema))
+    parts_libraries = fields.List(fields.Nested(LibrarySourceSchema))
 
 
 class ToolSchema(Schema):

@@ -17,6 +17,7 @@ import re
 from schemcheck.engine.network import Network
 from schemcheck.engine.params import OpampParams
 from schemcheck.model import Part, natural_key
+from schemcheck.partdata import DISPLAY
 from schemcheck.units import format_si
 
 _POT = re.compile(r"^(?P<name>.+): potentiometer taken at mid-travel "
@@ -165,6 +166,35 @@ def _defaults(network: Network, params: list[OpampParams]) -> str | None:
                                                for what, names in sorted(used.items()))
 
 
+def _part_data(network: Network, params: list[OpampParams]) -> list[str]:
+    """Figures given as typical only, chopper inputs taken as flat, class estimates."""
+    typical: dict[str, list[str]] = {}
+    estimated: dict[str, list[str]] = {}
+    flat_chopper: list[str] = []
+    for k, p in enumerate(params):
+        name = network.opamps[k].unit.part.ref
+        for figure in p.typical_only:
+            typical.setdefault(DISPLAY[figure], []).append(name)
+        if p.estimated:
+            estimated.setdefault(p.estimate_class or "", []).append(name)
+        if p.input_type == "chopper" and p.ib is not None and p.ib_hot is None:
+            flat_chopper.append(name)
+    lines = []
+    for figure, names in sorted(typical.items()):
+        lines.append("typical only (no maximum given; the true worst case can be larger): "
+                     f"{figure} of {compact(sorted(set(names), key=natural_key))}")
+    if flat_chopper:
+        lines.append("chopper (zero-drift) inputs without hot values: bias currents taken as "
+                     "flat over temperature (set by the input switching, not doubling like a "
+                     f"FET's) for {compact(sorted(set(flat_chopper), key=natural_key))}")
+    for kind, names in sorted(estimated.items()):
+        refs = compact(sorted(set(names), key=natural_key))
+        lines.append(f"estimate (class {kind}): missing figures of {refs} filled "
+                     "from class values, common practice orders of magnitude and no "
+                     "datasheet; their budgets are orders of magnitude only")
+    return lines
+
+
 def design_assumptions(network: Network, parts: list[Part] | tuple[Part, ...],
                        params: list[OpampParams], skipped_refs: set[str],
                        problems: list[str]) -> list[str]:
@@ -174,6 +204,7 @@ def design_assumptions(network: Network, parts: list[Part] | tuple[Part, ...],
     for line in (_open_parts(network, by_ref, skipped_refs), _defaults(network, params)):
         if line:
             lines.append(line)
+    lines += _part_data(network, params)
     if skipped_refs:
         lines.append("amplifiers recognised but not analysed (listed under not_analysed) are "
                      "open at DC")

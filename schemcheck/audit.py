@@ -19,11 +19,13 @@ from schemcheck.engine import split
 from schemcheck.engine.dcerror import solve
 from schemcheck.model import Finding, Netlist
 from schemcheck.results import (
-    Compensation, Contributor, DesignResult, ErrorSplit, MissingPart, NotAnalysed, ParamsUsed,
+    AmbiguousMatch, Compensation, Contributor, DesignResult, Estimate, LibraryMatch,
+    LibrarySource, ErrorSplit, MissingPart, NotAnalysed, ParamsUsed,
     PartRequirements, Sensitivity, StageResult, Upstream,
 )
 from schemcheck.engine.network import build_network
 from schemcheck.engine.params import OpampParams, ParameterError, resolve
+from schemcheck.engine.partmatch import PartsLibrary, sources_line
 from schemcheck.settings import Settings
 from schemcheck.engine.stages import amplifier_name, recognise
 from schemcheck.engine.topology import label
@@ -45,11 +47,14 @@ def _budget_limit(netlist_part, settings: Settings, problems: list[str]) -> floa
 
 
 def audit_netlist(netlist: Netlist, settings: Settings,
-                  library: Mapping[str, Mapping[str, Any]] | None = None) -> DesignResult:
-    """Audit every op-amp stage of ``netlist``."""
-    library = library or {}
+                  library: PartsLibrary | Mapping[str, Mapping[str, Any]] | None = None
+                  ) -> DesignResult:
+    """Audit every op-amp stage of ``netlist`` (``library``: the parts libraries read,
+    or one plain mapping of entries)."""
+    library = PartsLibrary.of(library)
     result = DesignResult(file=netlist.source, settings=settings.describe(),
-                         errors=list(netlist.errors))
+                          errors=list(netlist.errors),
+                          parts_libraries=[LibrarySource(**s.to_dict()) for s in library.sources])
     units, skipped = recognise(netlist.parts)
     for s in skipped:
         result.not_analysed.append(NotAnalysed(s.part.ref, s.part.unit, s.part.sheet,
@@ -65,7 +70,7 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     params: list[OpampParams] = []
     for op in network.opamps:
         try:
-            p = resolve(op.unit.part, library)
+            p = resolve(op.unit.part, library, estimate=settings.estimate_missing)
         except ParameterError as error:
             problems.append(str(error))
             p = OpampParams(source={"error": str(error)})
@@ -77,9 +82,11 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     mc = monte_carlo(network, solution, params, settings.temp_range, settings.mc_samples,
                      settings.seed) if settings.mc_samples > 0 else {}
     limits = [_budget_limit(op.unit.part, settings, problems) for op in network.opamps]
-    ctx = StageContext(network, solution, params, budgets, limits, settings.temp_range)
+    ctx = StageContext(network, solution, params, budgets, limits, settings.temp_range,
+                       settings.estimate_missing)
     findings: list[Finding] = []
     for rule_check in (checks.check_bias_path, checks.check_feedback, checks.check_parameters,
+                       checks.check_part_match, checks.check_estimates,
                        checks.check_bias_resistor, checks.check_budget):
         findings.extend(rule_check(ctx))
     for error in netlist.errors:  # a child sheet that could not be read
@@ -92,6 +99,8 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     result.stages = [_stage_result(ctx, mc, k) for k in range(len(network.opamps))]
     result.assumptions = design_assumptions(network, netlist.parts, params,
                                             {s.part.ref for s in skipped}, problems)
+    if library.sources:
+        result.assumptions.append(sources_line(library.sources))
     result.missing_parameters = [
         MissingPart(value, list(missing), len(opamps),
                     [network.opamps[k].unit.name for k in opamps])
@@ -112,7 +121,15 @@ def _params_used(p: OpampParams) -> ParamsUsed:
     return ParamsUsed(vos=p.vos, ib=p.ib, ios=p.ios, tcvos=p.tcvos, ib_hot=p.ib_hot,
                       ios_hot=p.ios_hot, t_hot=p.t_hot, input=p.input_type, aol=p.aol,
                       ib_either_sign=p.ib_either_sign, typical=_ordered(p.typical),
-                      library_entry=p.library_entry, source=_ordered(p.source))
+                      library_entry=p.library_entry, source=_ordered(p.source),
+                      typical_only=list(p.typical_only),
+                      estimate=(Estimate(p.estimate_class or "", list(p.estimated))
+                                if p.estimated else None),
+                      match=LibraryMatch(**p.match.to_dict()) if p.match is not None else None,
+                      ambiguous_match=(AmbiguousMatch(p.ambiguity.key,
+                                                      list(p.ambiguity.candidates),
+                                                      p.ambiguity.reason)
+                                       if p.ambiguity is not None else None))
 
 
 def _resistances(c: split.Coefficients | None) -> tuple[float | None, float | None]:

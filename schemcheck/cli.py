@@ -152,18 +152,24 @@ def _fail_on_option(command: Callable[..., Any]) -> Callable[..., Any]:
 @click.option("--shard", "shard", metavar="K/N", default=None, callback=_shard_option,
               help="Audit only the K-th of N stable parts of the designs (a CI matrix); "
                    "join the reports with 'schemcheck merge'.")
+@click.option("--estimate-missing", "estimate_missing", is_flag=True,
+              help="Fill missing op-amp figures from class values by input type (orders of "
+                   "magnitude; every such figure is marked 'estimate (class ...)').")
 @_reports_errors
 def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None,
           parts: str | None, budget: str | None, samples: int | None, seed: int | None,
           settings_path: str | None, jobs: int | None, fail_on: str, no_cache: bool,
           cache_file: str | None, changed_since: str | None, staged: bool,
-          shard: Shard | None) -> None:
+          shard: Shard | None, estimate_missing: bool) -> None:
     """Audit the DC output error of every op-amp stage of one or many designs.
 
     PATHS are schematics, exported netlists, project folders or folders of many
     projects (searched recursively; child sheets are audited through their root).
     Settings come from schemcheck.toml beside each design; options override it.
     With --changed-since or --staged, PATHS default to the current folder.
+
+    Parts libraries: the user's (parts.toml in the user config folder), the project's,
+    then --parts; a later one wins.
 
     Exit status: 0 no finding at or above --fail-on, 1 such findings, 2 unreadable
     input or bad usage.
@@ -192,7 +198,7 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
         fmt = "text" if not output and sys.stdout.isatty() else "json"
 
     overrides = options_to_overrides(temp=temp, parts=parts, budget=budget, samples=samples,
-                                     seed=seed)
+                                     seed=seed, estimate_missing=estimate_missing)
     designs, missing = find_designs(list(paths))
     if changed_since is not None or staged:
         from schemcheck.run.changes import changed_files, touched_designs
@@ -311,6 +317,128 @@ def bench(csv_file: str, fmt: str, parts: str | None, part: str | None, dry_run:
                                skip_bad_rows=skip_bad_rows)
     _emit(_json(report) if fmt == "json" else bench_text(report))
     sys.exit(EXIT_FINDINGS if report["problems"] else 0)
+
+
+@main.group()
+def parts() -> None:
+    """Op-amp part data: what is missing, a library skeleton to fill, a library checked.
+
+    \b
+    Example:
+      schemcheck parts missing designs/
+      schemcheck parts skeleton designs/ -o opamps.toml
+      schemcheck parts check opamps.toml
+    """
+
+
+def _parts_options(command: Callable[..., Any]) -> Callable[..., Any]:
+    command = click.option("--settings", "settings_path", default=None,
+                           type=click.Path(dir_okay=False, path_type=str),
+                           help="Settings file to use instead of schemcheck.toml beside "
+                                "each design.")(command)
+    return click.option("--parts", "parts_file", default=None,
+                        type=click.Path(dir_okay=False, path_type=str),
+                        help="Parts library laid over the user's and the project's.")(command)
+
+
+def _missing(paths: tuple[str, ...], parts_file: str | None,
+             settings_path: str | None) -> dict[str, Any]:
+    from schemcheck.run.parts import missing_parts
+    from schemcheck.run.runner import options_to_overrides
+
+    report = missing_parts(list(paths), overrides=options_to_overrides(parts=parts_file),
+                           settings_path=settings_path)
+    for error in report["errors"]:
+        click.echo(f"Error: {error}", err=True)
+    return report
+
+
+@parts.command("missing")
+@click.argument("paths", nargs=-1, required=True, type=str)
+@_format_option(("json", "text"), "text")
+@_parts_options
+@_reports_errors
+def parts_missing(paths: tuple[str, ...], fmt: str, parts_file: str | None,
+                  settings_path: str | None) -> None:
+    """List the op-amp part numbers with no Vos, Ib or Ios across the designs.
+
+    For each: the units and designs using it, how it would be matched (Value,
+    part-number field, lib_id symbol, family) and the libraries read. Exit status 0,
+    or 2 when a design or library could not be read.
+
+    \b
+    Example:
+      schemcheck parts missing designs/ --parts opamps.toml
+    """
+    report = _missing(paths, parts_file, settings_path)
+    if fmt == "json":
+        _emit(_json(report))
+    else:
+        from schemcheck.report.parts_text import missing_text
+
+        _emit(missing_text(report))
+    sys.exit(EXIT_BAD_INPUT if report["errors"] else 0)
+
+
+@parts.command("skeleton")
+@click.argument("paths", nargs=-1, required=True, type=str)
+@click.option("--output", "-o", "output", type=click.Path(dir_okay=False, path_type=str),
+              default=None, help="Library to append the entries to (created if absent); "
+                                 "its content and comments are kept.")
+@_parts_options
+@_reports_errors
+def parts_skeleton(paths: tuple[str, ...], output: str | None, parts_file: str | None,
+                   settings_path: str | None) -> None:
+    """Write a commented TOML entry to fill for every op-amp part number with no data.
+
+    Each entry names the units using it, how it is matched and its family key, with
+    every figure's meaning and unit and empty typ/max to fill from the datasheet.
+    Without -o the library is printed. Exit status 0, or 2 when a design or library
+    could not be read.
+
+    \b
+    Example:
+      schemcheck parts skeleton designs/ -o opamps.toml
+    """
+    from schemcheck.io.partslib_write import skeleton_library, write_library
+
+    report = _missing(paths, parts_file, settings_path)
+    wanted = [p for p in report["parts"] if p["field"] != "Reference"]
+    _, text, added, present = skeleton_library(output, wanted)
+    if output:
+        os.makedirs(os.path.dirname(os.path.abspath(output)), exist_ok=True)
+        write_library(output, text)
+        click.echo(f"{output}: {len(added)} entr{'y' if len(added) == 1 else 'ies'} added"
+                   + (f" ({', '.join(added)})" if added else "")
+                   + (f"; already there: {', '.join(present)}" if present else ""))
+    else:
+        _emit(text)
+    sys.exit(EXIT_BAD_INPUT if report["errors"] else 0)
+
+
+@parts.command("check")
+@click.argument("library", type=click.Path(dir_okay=False, path_type=str))
+@_format_option(("json", "text"), "text")
+@_reports_errors
+def parts_check(library: str, fmt: str) -> None:
+    """Validate a parts library and print it as a table.
+
+    An unknown key, a value in the wrong unit or a max below its typ is an error naming
+    the file, line, entry and key (exit status 2).
+
+    \b
+    Example:
+      schemcheck parts check opamps.toml
+    """
+    from schemcheck.run.parts import check_library
+
+    report = check_library(library)
+    if fmt == "json":
+        _emit(_json(report))
+    else:
+        from schemcheck.report.parts_text import check_text
+
+        _emit(check_text(report))
 
 
 _LOOPBACK = ("127.0.0.1", "localhost", "::1")

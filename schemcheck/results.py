@@ -58,6 +58,44 @@ class Sensitivity:
 
 
 @dataclass(slots=True)
+class Estimate:
+    """Figures filled from class values (``--estimate-missing``)."""
+
+    class_: str = field(default="", metadata={"key": "class"})  # the input class used
+    figures: list[str] = field(default_factory=list)
+
+
+@dataclass(slots=True)
+class LibraryMatch:
+    """How a parts-library entry was found for a part."""
+
+    entry: str = ""
+    by: str = ""  # value, part-number, lib_id or family
+    field: str = ""  # Value, the part-number field, or lib_id
+    key: str = ""
+    matched: str = ""  # the entry name or alias met
+    library: str | None = None
+
+
+@dataclass(slots=True)
+class AmbiguousMatch:
+    """No entry used because several fit."""
+
+    key: str = ""
+    candidates: list[str] = field(default_factory=list)
+    reason: str = ""
+
+
+@dataclass(slots=True)
+class LibrarySource:
+    """One parts library read for a design."""
+
+    origin: str = ""  # user, project or command line
+    path: str = ""
+    entries: int = 0
+
+
+@dataclass(slots=True)
 class ParamsUsed:
     """The op-amp figures the budget used, each with where it came from (``source``)."""
 
@@ -74,6 +112,10 @@ class ParamsUsed:
     typical: dict[str, float] = field(default_factory=dict)
     library_entry: str | None = None
     source: dict[str, str] = field(default_factory=dict)
+    typical_only: list[str] = field(default_factory=list)  # figures given only as typical
+    estimate: Estimate | None = None
+    match: LibraryMatch | None = None
+    ambiguous_match: AmbiguousMatch | None = None
 
 
 @dataclass(slots=True)
@@ -246,6 +288,7 @@ class DesignResult:
     errors: list[str] = field(default_factory=list)
     caution: str = CAUTION
     missing_parameters: list[MissingPart] = field(default_factory=list)
+    parts_libraries: list[LibrarySource] = field(default_factory=list)
 
 
 @dataclass(slots=True)

@@ -56,6 +56,18 @@ _RULES = (
          "A design file could not be read: a malformed or unsupported file, or a missing "
          "child sheet; the rest of the batch is still audited.",
          "A design the tool cannot read has not been checked at all."),
+    Rule("ambiguous-part-match", "warning", "Part number matched only ambiguously",
+         "The op-amp's part number matches no parts-library entry exactly, and by its family "
+         "(the part number without package, grade, temperature-range and reel suffixes) it "
+         "could be several entries, or an entry of a different variant: none is used.",
+         "Grades and variants of one family differ in their guaranteed figures; picking one "
+         "would be a guess."),
+    Rule("estimated-parameters", "warning", "Op-amp figures estimated by class",
+         "Requested with --estimate-missing or estimate_missing: the op-amp's missing Vos, "
+         "Ib, Ios or TCVos are filled from common practice orders of magnitude for its "
+         "class of input stage.",
+         "A class estimate is no datasheet figure: the budget it gives is an order of "
+         "magnitude, to be confirmed."),
 )
 
 RULES: dict[str, Rule] = {rule.id: rule for rule in _RULES}

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass, field
 
 #: Stated in every report that uses it.
@@ -20,9 +21,28 @@ class Settings:
     seed: int = DEFAULT_SEED
     source_resistance: dict[str, float] = field(default_factory=dict)  # net -> ohms
     disabled_rules: tuple[str, ...] = ()
-    parts_library: str | None = None
+    parts_library: str | None = None  # the project's (settings file), or the service's
+    #: the user-level (team) library, where one exists; set at the I/O edge
+    user_parts_library: str | None = None
+    #: ``--parts`` on the command line: laid over the project's library
+    command_line_parts: str | None = None
+    #: fill missing Vos/Ib/Ios/TCVos from class values (opt-in; every such figure marked)
+    estimate_missing: bool = False
     #: which of the values above were set by the user (the rest are defaults)
     given: tuple[str, ...] = ()
+
+    def parts_libraries(self) -> list[tuple[str, str]]:
+        """(origin, path) of every parts library to read, the lowest precedence first:
+        the user's, the project's, the command line's (a later one wins)."""
+        layers = [("user", self.user_parts_library), ("project", self.parts_library),
+                  ("command line", self.command_line_parts)]
+        out: list[tuple[str, str]] = []
+        for origin, path in layers:
+            if path:
+                same = os.path.normcase(os.path.abspath(path))
+                out = [(o, p) for o, p in out if os.path.normcase(os.path.abspath(p)) != same]
+                out.append((origin, path))
+        return out
 
     def describe(self) -> dict:
         return {
@@ -33,7 +53,10 @@ class Settings:
             "seed": self.seed,
             "source_resistance_ohm": dict(self.source_resistance),
             "disabled_rules": list(self.disabled_rules),
-            "parts_library": self.parts_library,
+            "parts_library": self.command_line_parts or self.parts_library,
+            "parts_libraries": [{"origin": origin, "path": path}
+                                for origin, path in self.parts_libraries()],
+            "estimate_missing": self.estimate_missing,
             "defaults_used": [name for name in ("temp_range", "default_tolerance",
                                                 "default_budget") if name not in self.given],
         }

@@ -49,6 +49,20 @@ def corpus_ids(paths: list[Path]) -> list[str]:
     return [str(p.relative_to(CORPUS)) if CORPUS else str(p) for p in paths]
 
 
+@pytest.fixture(scope="session", autouse=True)
+def no_user_parts_library(tmp_path_factory):
+    """A user-level parts library on the machine running the tests must not reach them:
+    the user config folder (platformdirs reads $XDG_CONFIG_HOME) is an empty temporary
+    one; tests that need a user library write it there."""
+    old = os.environ.get("XDG_CONFIG_HOME")
+    os.environ["XDG_CONFIG_HOME"] = str(tmp_path_factory.mktemp("config"))
+    yield Path(os.environ["XDG_CONFIG_HOME"])
+    if old is None:
+        del os.environ["XDG_CONFIG_HOME"]
+    else:
+        os.environ["XDG_CONFIG_HOME"] = old
+
+
 @pytest.fixture
 def corpus() -> Path:
     if CORPUS is None:

@@ -34,10 +34,10 @@ def stage(s: Sheet, x: float, y: float, *, ref: str, unit: int, value: str,
           out_label: str = "OUT", refs: tuple[str, str, str] = ("R1", "R2", "R3"),
           in_kind: str = "global_label", out_kind: str = "global_label",
           plus_part: str | None = None, minus_part: str | None = None,
-          feedback_cap: str | None = None) -> None:
+          feedback_cap: str | None = None, lib: str = DUAL) -> None:
     """One gain stage around op-amp unit ``ref``/``unit`` at (x, y), drawn mirrored
     so the - input is the upper pin. ``signal`` says where the input label goes."""
-    u = s.place(DUAL, ref, value, x, y, mirror="x", unit=unit, fields=fields or {})
+    u = s.place(lib, ref, value, x, y, mirror="x", unit=unit, fields=fields or {})
     minus_pin, plus_pin, out_pin = (("2", "3", "1") if unit == 1 else ("6", "5", "7"))
     minus, plus, out = u.pin(minus_pin), u.pin(plus_pin), u.pin(out_pin)
     r_in, r_f, r_p = refs

@@ -14,7 +14,7 @@ from marshmallow import fields as mm
 
 from schemcheck import results
 from schemcheck.model import Finding
-from schemcheck.report.json import design_from_data, dumps, to_data
+from schemcheck.report.json import design_from_data, dumps, json_key, to_data
 from schemcheck_api import schemas
 
 PAIRS = [
@@ -33,13 +33,18 @@ PAIRS = [
     (results.PartRequirements, schemas.PartRequirementsSchema),
     (results.MissingPart, schemas.MissingPartSchema),
     (results.MissingAcross, schemas.MissingAcrossSchema),
+    (results.Estimate, schemas.EstimateSchema),
+    (results.LibraryMatch, schemas.MatchSchema),
+    (results.AmbiguousMatch, schemas.AmbiguousMatchSchema),
+    (results.LibrarySource, schemas.LibrarySourceSchema),
     (Finding, schemas.FindingSchema),
 ]
 
 
 @pytest.mark.parametrize("model,schema", PAIRS, ids=[m.__name__ for m, _ in PAIRS])
 def test_schema_names_every_field_of_the_model(model, schema):
-    assert [f.name for f in dataclasses.fields(model)] == list(schema._declared_fields)
+    declared = [f.data_key or name for name, f in schema._declared_fields.items()]
+    assert [json_key(f) for f in dataclasses.fields(model)] == declared
 
 
 def _nested(field):
@@ -51,8 +56,9 @@ def _nested(field):
 @pytest.mark.parametrize("model,schema", PAIRS, ids=[m.__name__ for m, _ in PAIRS])
 def test_nested_fields_use_the_matching_schema(model, schema):
     by_model = dict(PAIRS)
-    hints = typing.get_type_hints(model)
+    hints = {json_key(f): typing.get_type_hints(model)[f.name] for f in dataclasses.fields(model)}
     for name, field in schema._declared_fields.items():
+        name = field.data_key or name
         nested = _nested(field)
         inner = [a for a in typing.get_args(hints[name]) if dataclasses.is_dataclass(a)]
         if dataclasses.is_dataclass(hints[name]):

@@ -7,10 +7,12 @@ from __future__ import annotations
 
 from schemcheck.checks.bias_path import check_bias_path
 from schemcheck.checks.bias_resistor import check_bias_resistor
+from schemcheck.checks.estimates import check_estimates
 from schemcheck.checks.over_budget import check_budget
 from schemcheck.rules import RULES
 from schemcheck.checks.feedback import check_feedback
 from schemcheck.checks.parameters import check_parameters
+from schemcheck.checks.part_match import check_part_match
 
-__all__ = ["RULES", "check_bias_path", "check_bias_resistor", "check_budget", "check_feedback",
-           "check_parameters"]
+__all__ = ["RULES", "check_bias_path", "check_bias_resistor", "check_budget", "check_estimates",
+           "check_feedback", "check_parameters", "check_part_match"]

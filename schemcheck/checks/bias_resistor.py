@@ -59,6 +59,8 @@ def check_bias_resistor(ctx: StageContext) -> list[Finding]:
                 continue
             added = abs(s_p) * ib
             why = ("FET-input" if params.is_fet else
+                   "zero-drift (chopper)"
+                   if params.input_type == "chopper" else
                    "internally bias-cancelled (Ib of either polarity)" if params.ib_either_sign
                    else f"Ios ({format_si(ios, 'A')}) not much smaller than Ib")
             findings.append(Finding(

@@ -19,6 +19,7 @@ class StageContext:
     budgets: list[StageBudget]
     budget_limits: list[float | None]
     temp_range: tuple[float, float]
+    estimate_missing: bool = False
 
     def who(self, k: int) -> tuple[str, int, str]:
         part = self.network.opamps[k].unit.part

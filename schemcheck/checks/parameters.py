@@ -27,11 +27,15 @@ def check_parameters(ctx: StageContext) -> list[Finding]:
         ref, unit, sheet = ctx.who(first)
         stages = [ctx.name(k) for k in opamps]
         names = ", ".join(_NAMES[m] for m in missing)
+        why = ""
+        if ctx.estimate_missing and ctx.params[first].input_type == "unknown":
+            why = (" (no class estimate: its input type is unknown; give it an Input field "
+                   "or an input in the library)")
         count = f"{len(stages)} units" if len(stages) > 1 else "1 unit"
         findings.append(Finding(
             "missing-parameters", "warning", ref, unit,
             f"{value} ({count}: {', '.join(stages)}) has no {names}: the stages' "
-            "sensitivities and part requirements are reported, their error is unknown",
+            f"sensitivities and part requirements are reported, their error is unknown{why}",
             f"add the fields {names} to the symbol, or an entry for {value!r} to the parts "
             "library", sheet,
             data={"missing": list(missing), "value": value, "stages": stages,

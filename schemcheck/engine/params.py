@@ -1,16 +1,22 @@
-"""Op-amp DC parameters: from symbol fields, the parts library, or defaults (pure).
+"""Op-amp DC parameters: from symbol fields, the parts library, class estimates or
+defaults (pure).
 
-Symbol fields (case-insensitive) override the library. Every value carries its source
-(``field``, ``library:<entry>``, ``default``) into the report.
+Symbol fields (case-insensitive) override the library entry found by
+:mod:`schemcheck.engine.partmatch`. Every value carries its source into the report:
+``field``, ``library:<entry>`` (plus how the entry was found, e.g. ``library:LX1612 via
+family of LX1612AxD``, and `` (typical only)`` where the library gives only a typical
+figure), ``estimate (class <type>)``, or ``default ...``.
 
 Temperature model (``at_temperature``):
 
 * Vos grows by TCVos per °C away from 25 °C;
 * bias and offset currents: where a hot value (``Ib_hot``, ``Ios_hot``, at ``T_hot``) is
-  given, they are interpolated exponentially between 25 °C and ``T_hot`` for FET/CMOS
-  inputs and linearly for bipolar ones; without one, FET-input currents double every
-  10 °C (common practice) and bipolar ones are taken as flat. Below 25 °C FET currents
-  are taken at their 25 °C value (they only fall), bipolar ones as flat.
+  given, they are interpolated exponentially between 25 °C and ``T_hot`` for JFET/CMOS
+  inputs and linearly for bipolar and chopper ones; without one, JFET/CMOS currents
+  double every 10 °C (common practice), bipolar ones are taken as flat, and chopper
+  (zero-drift) ones too: their bias current is set by the input switching, not by a
+  junction leakage (common practice). Below 25 °C currents are taken at their 25 °C
+  value.
 """
 
 from __future__ import annotations
@@ -18,27 +24,29 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
+from schemcheck.engine.estimates import CLASS_VALUES, input_type_from_text
+from schemcheck.engine.partmatch import Ambiguity, Match, PartsLibrary, match_part
 from schemcheck.model import Part
-from schemcheck.units import ValueFormatError, parse_gain, parse_quantity
+from schemcheck.partdata import FIGURES, parse_figure
+from schemcheck.partdata import INPUT_TYPES as _INPUT_TYPES
+from schemcheck.units import ValueFormatError, parse_gain
 
 FET_INPUTS = ("jfet", "cmos", "fet", "mosfet")
-INPUT_TYPES = ("bipolar", "jfet", "cmos")
+INPUT_TYPES = tuple(_INPUT_TYPES)
 FET_DOUBLING_C = 10.0  # common practice: FET-input bias current doubles every 10 °C
+TYPICAL_ONLY = " (typical only)"
 
 #: name -> (kind for the unit parser, field names accepted on a symbol)
 _FIELDS: dict[str, tuple[str, tuple[str, ...]]] = {
-    "vos": ("volt", ("Vos",)),
-    "ib": ("amp", ("Ib",)),
-    "ios": ("amp", ("Ios",)),
-    "tcvos": ("volt_per_deg", ("TCVos",)),
-    "ib_hot": ("amp", ("Ib_hot",)),
-    "ios_hot": ("amp", ("Ios_hot",)),
-}
+    name: (figure.kind, (figure.field,)) for name, figure in FIGURES.items()}
 
 
 @dataclass(frozen=True, slots=True)
 class OpampParams:
-    """Maximum magnitudes at 25 °C (volts, amperes, V/°C); None where unknown."""
+    """Maximum magnitudes at 25 °C (volts, amperes, V/°C); None where unknown.
+
+    ``typical_only`` names the figures for which only a typical value was given (and is
+    used); ``estimated`` those filled from the class values of ``estimate_class``."""
 
     vos: float | None = None
     ib: float | None = None
@@ -53,6 +61,11 @@ class OpampParams:
     typical: Mapping[str, float] = field(default_factory=dict)
     source: Mapping[str, str] = field(default_factory=dict)
     library_entry: str | None = None
+    typical_only: tuple[str, ...] = ()
+    estimated: tuple[str, ...] = ()
+    estimate_class: str | None = None
+    match: Match | None = None
+    ambiguity: Ambiguity | None = None
 
     @property
     def is_fet(self) -> bool:
@@ -65,9 +78,10 @@ class OpampParams:
     @property
     def bias_currents_matched(self) -> bool:
         """Ib+ and Ib- track each other (Ios much smaller than Ib): bipolar inputs
-        without internal bias cancellation. FET/CMOS inputs, either-polarity Ib and
-        Ios at least half of Ib are not matched."""
-        if self.is_fet or self.ib_either_sign:
+        without internal bias cancellation. FET/CMOS and chopper inputs, either-polarity
+        Ib and Ios at least half of Ib are not matched."""
+        if (self.is_fet or self.ib_either_sign
+                or self.input_type in ("chopper", "bipolar-compensated")):
             return False
         if self.ib is None or self.ios is None:
             return False
@@ -82,76 +96,87 @@ class ParameterError(ValueFormatError):
 
 
 def _parse(name: str, text: str, where: str) -> tuple[float, bool]:
-    kind, _ = _FIELDS[name]
     try:
-        quantity = parse_quantity(text, kind, what=f"{name} ({where})")
+        quantity = parse_figure(name, text, f"{name} ({where})")
     except ValueFormatError as error:
         raise ParameterError(str(error)) from None
     return abs(quantity.value), quantity.either_sign
 
 
-def from_library(entry_name: str, entry: Mapping[str, Any]) -> OpampParams:
-    """Parameters of one parts-library entry (``[parts."NAME"]`` table)."""
+def _input_type(text: str, where: str) -> str:
+    kind = text.strip().lower()
+    if kind not in INPUT_TYPES:
+        raise ParameterError(f"{where}: expected {' | '.join(INPUT_TYPES)}, found {text!r}")
+    return kind
+
+
+def from_library(entry_name: str, entry: Mapping[str, Any],
+                 match: Match | None = None) -> OpampParams:
+    """Parameters of one parts-library entry (``[parts."NAME"]`` table, as read and
+    checked by :func:`schemcheck.io.partslib.load_parts_library`). Where a figure has
+    only ``typ``, that value is used and its source says ``typical only``."""
     values: dict[str, Any] = {}
     typical: dict[str, float] = {}
     source: dict[str, str] = {}
-    label = f"library:{entry_name}"
+    typical_only: list[str] = []
+    label = match.describe() if match is not None else f"library:{entry_name}"
+    where = f"parts library {entry_name}"
     either = False
     for name in _FIELDS:
         raw = entry.get(name)
-        if raw is None:
+        if raw is None or raw == "":
             continue
         limits = raw if isinstance(raw, Mapping) else {"max": raw}
+        limits = {k: v for k, v in limits.items() if v != ""}
+        if "typ" in limits:
+            typical[name], sign = _parse(name, str(limits["typ"]), where)
+            either = either or (name == "ib" and sign)
         if "max" in limits:
-            values[name], sign = _parse(name, str(limits["max"]), f"parts library {entry_name}")
+            values[name], sign = _parse(name, str(limits["max"]), where)
             either = either or (name == "ib" and sign)
             source[name] = label
-        if "typ" in limits:
-            typical[name], _ = _parse(name, str(limits["typ"]), f"parts library {entry_name}")
-    if "input" in entry:
-        kind = str(entry["input"]).strip().lower()
-        if kind not in INPUT_TYPES:
-            raise ParameterError(f"parts library {entry_name}: expected input = "
-                                 f"{' | '.join(INPUT_TYPES)}, found {entry['input']!r}")
-        values["input_type"] = kind
+        elif "typ" in limits:
+            values[name] = typical[name]
+            typical_only.append(name)
+            source[name] = label + TYPICAL_ONLY
+    if str(entry.get("input", "")).strip():
+        values["input_type"] = _input_type(str(entry["input"]), f"{where}: input")
         source["input_type"] = label
-    if "aol" in entry:
+        either = either or values["input_type"] == "bipolar-compensated"
+    if entry.get("aol", "") != "":
         try:
             values["aol"] = parse_gain(str(entry["aol"]))
         except ValueFormatError as error:
-            raise ParameterError(f"parts library {entry_name}: {error}") from None
+            raise ParameterError(f"{where}: {error}") from None
         source["aol"] = label
-    if "t_hot" in entry:
+    if entry.get("t_hot", "") != "":
         values["t_hot"] = float(entry["t_hot"])
         source["t_hot"] = label
     if "ib_either_sign" in entry:
         either = bool(entry["ib_either_sign"])
     return OpampParams(**values, ib_either_sign=either, typical=typical, source=source,
-                       library_entry=entry_name)
+                       library_entry=entry_name, typical_only=tuple(typical_only), match=match)
 
 
-def library_key(part: Part, library: Mapping[str, Mapping[str, Any]]) -> str | None:
-    """The library entry for ``part``: by a part-number field, else by its value;
-    entry names and their ``aliases`` match case-insensitively."""
-    index: dict[str, str] = {}
-    for name, entry in library.items():
-        index[name.casefold()] = name
-        for alias in entry.get("aliases", ()) or ():
-            index[str(alias).casefold()] = name
-    for field_name in ("MPN", "Part Number", "PartNumber", "Part_Number",
-                       "Manufacturer_Part_Number", "Value"):
-        value = part.field(field_name)
-        if value and value.strip().casefold() in index:
-            return index[value.strip().casefold()]
-    return None
+def library_key(part: Part, library: PartsLibrary | Mapping[str, Mapping[str, Any]]) -> str | None:
+    """The library entry for ``part`` (see :mod:`schemcheck.engine.partmatch`), or None."""
+    found, _ = match_part(part, PartsLibrary.of(library))
+    return found.entry if found is not None else None
 
 
-def resolve(part: Part, library: Mapping[str, Mapping[str, Any]]) -> OpampParams:
-    """Parameters of ``part``: library entry first, symbol fields over it."""
-    key = library_key(part, library)
-    params = from_library(key, library[key]) if key is not None else OpampParams()
+def resolve(part: Part, library: PartsLibrary | Mapping[str, Mapping[str, Any]] | None,
+            *, estimate: bool = False) -> OpampParams:
+    """Parameters of ``part``: library entry first, symbol fields over it, then (when
+    ``estimate``) class estimates for what is still missing, then the defaults."""
+    parts_library = PartsLibrary.of(library)
+    found, ambiguity = match_part(part, parts_library)
+    if found is not None:
+        params = from_library(found.entry, parts_library.entries[found.entry], found)
+    else:
+        params = OpampParams(ambiguity=ambiguity)
     changes: dict[str, Any] = {}
     source = dict(params.source)
+    typical_only = list(params.typical_only)
     either = params.ib_either_sign
     for name, (_, names) in _FIELDS.items():
         for field_name in names:
@@ -161,14 +186,22 @@ def resolve(part: Part, library: Mapping[str, Mapping[str, Any]]) -> OpampParams
                 if name == "ib":
                     either = sign
                 source[name] = "field"
+                if name in typical_only:
+                    typical_only.remove(name)
     text = part.field("Input")
     if text is not None and text.strip():
-        kind = text.strip().lower()
-        if kind not in INPUT_TYPES:
-            raise ParameterError(f"field Input of {part.ref}: expected "
-                                 f"{' | '.join(INPUT_TYPES)}, found {text!r}")
-        changes["input_type"] = kind
+        changes["input_type"] = _input_type(text, f"field Input of {part.ref}")
         source["input_type"] = "field"
+        either = either or changes["input_type"] == "bipolar-compensated"
+    elif params.input_type == "unknown":
+        for words, label in ((part.description, "symbol description"),
+                             (part.keywords, "symbol keywords")):
+            kind = input_type_from_text(words)
+            if kind is not None:
+                changes["input_type"] = kind
+                source["input_type"] = label
+                either = either or kind == "bipolar-compensated"
+                break
     text = part.field("Aol")
     if text is not None and text.strip():
         try:
@@ -184,19 +217,40 @@ def resolve(part: Part, library: Mapping[str, Mapping[str, Any]]) -> OpampParams
             raise ParameterError(f"field T_hot of {part.ref}: expected a temperature in °C, "
                                  f"found {text!r}") from None
         source["t_hot"] = "field"
-    params = replace(params, **changes, ib_either_sign=either, source=source)
-    return with_defaults(params)
+    params = replace(params, **changes, ib_either_sign=either, source=source,
+                     typical_only=tuple(typical_only))
+    return with_defaults(params, estimate=estimate)
 
 
-def with_defaults(params: OpampParams) -> OpampParams:
-    """Fill what can be filled conservatively, saying so in ``source``:
-    Ios missing but Ib known -> Ios = Ib; TCVos missing -> 0 (no drift data)."""
+def estimate_label(kind: str) -> str:
+    """The source of a class estimate, as every report shows it."""
+    return f"estimate (class {kind})"
+
+
+def with_defaults(params: OpampParams, *, estimate: bool = False) -> OpampParams:
+    """Fill what can be filled, saying so in ``source``: Ios missing but Ib known ->
+    Ios = Ib; then, when ``estimate`` and the input type is known, the missing Vos, Ib,
+    Ios and TCVos from the class values; TCVos still missing -> 0 (no drift data)."""
     source = dict(params.source)
     changes: dict[str, Any] = {}
     if params.ios is None and params.ib is not None:
         changes["ios"] = params.ib
         source["ios"] = "default (Ios = Ib)"
-    if params.tcvos is None and params.vos is not None:
+        if "ib" in params.typical_only:  # taken from a typical figure, so typical too
+            changes["typical_only"] = (*params.typical_only, "ios")
+    estimated: list[str] = []
+    if estimate and params.input_type in CLASS_VALUES:
+        values = CLASS_VALUES[params.input_type]
+        for name in ("vos", "ib", "ios", "tcvos"):
+            if getattr(params, name) is None and name not in changes:
+                changes[name] = values[name]
+                source[name] = estimate_label(params.input_type)
+                estimated.append(name)
+        if estimated:
+            changes["estimated"] = tuple(estimated)
+            changes["estimate_class"] = params.input_type
+    if params.tcvos is None and "tcvos" not in changes and (
+            params.vos is not None or "vos" in changes):
         changes["tcvos"] = 0.0
         source["tcvos"] = "default (no drift data: 0)"
     if params.input_type == "unknown":
@@ -239,7 +293,7 @@ def at_temperature(params: OpampParams, temp_c: float, range_top_c: float) -> At
     vos = None
     if params.vos is not None:
         vos = params.vos + (params.tcvos or 0.0) * abs(temp_c - 25.0)
-    fet = params.is_fet
+    fet = params.is_fet  # chopper and bipolar inputs: linear between hot values, else flat
     return AtTemperature(
         temp_c,
         vos,

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import difflib
 import os
+from typing import Any
 
 import tomlkit
 
@@ -87,3 +88,89 @@ def write_library(path: str, text: str) -> None:
 def diff(old: str, new: str, path: str) -> str:
     return "".join(difflib.unified_diff(old.splitlines(True), new.splitlines(True),
                                         fromfile=path, tofile=f"{path} (updated)"))
+
+
+SKELETON_HEADER = (
+    "Parts library written by schemcheck parts skeleton: one entry per op-amp part number",
+    "that had no DC data. Fill the figures from each part's datasheet, at 25 °C unless said:",
+    "typ = the typical value, max = the guaranteed maximum magnitude. \"\" means not given.",
+    "Where only typ is known, the audit uses it and marks it \"typical only\".",
+    "Units: vos V (0.5mV, 50uV); ib, ios A (20nA, 5pA; a leading ± for either polarity);",
+    "tcvos V/°C (3uV/°C); ib_hot, ios_hot A at t_hot (°C).",
+)
+
+
+def skeleton_entry(part: dict[str, Any]) -> tomlkit.items.Table:
+    """The commented TOML table of one missing part (``part``: one row of
+    :func:`schemcheck.run.parts.missing_parts`)."""
+    from schemcheck.partdata import FIGURES, INPUT_TYPES
+
+    table = tomlkit.table()
+    uses = part["used_by"]
+    for use in uses[:5]:
+        table.add(tomlkit.comment(f"used by {', '.join(use['units'])} in {use['design']}"))
+    if len(uses) > 5:
+        table.add(tomlkit.comment(f"and in {len(uses) - 5} more designs"))
+    how = f"matched by its {part['field']}"
+    if part["other_keys"]:
+        how += f" (also carries {', '.join(part['other_keys'])})"
+    table.add(tomlkit.comment(how))
+    if part["family"].casefold() != part["part"].casefold():
+        table.add(tomlkit.comment(f"family key {part['family']}: an entry named "
+                                  f"\"{part['family']}\" would match every part number of "
+                                  "the family (grades too)"))
+    if part.get("ambiguous"):
+        table.add(tomlkit.comment(f"the library has {', '.join(part['ambiguous'])} of its "
+                                  "family: if one has the same figures, add this part number "
+                                  "to its aliases instead"))
+    if part.get("description"):
+        table.add(tomlkit.comment(f"symbol description: {part['description']}"))
+    table.add("description", "")
+    table.add("input", part.get("input") or "")
+    table["input"].comment(" | ".join(INPUT_TYPES)
+                           + ("  (from the symbol: check it)" if part.get("input") else ""))
+    for name, figure in FIGURES.items():
+        limits = tomlkit.inline_table()
+        limits.update({"typ": "", "max": ""})
+        table.add(name, limits)
+        table[name].comment(f"{figure.meaning}, {figure.unit} (like \"{figure.example}\")")
+    table.add(tomlkit.comment("t_hot = 85  # °C at which ib_hot and ios_hot apply"))
+    table.add(tomlkit.comment("aliases = []  # other part numbers with the same figures"))
+    return table
+
+
+def skeleton_library(path: str | None, parts: list[dict[str, Any]]) -> tuple[str, str, list[str],
+                                                                            list[str]]:
+    """(old text, new text, entries added, entries already present) of the library at
+    ``path`` (None or a missing file: a new library) with one skeleton entry per part
+    not already named there (by an entry name or alias, case-insensitively). The rest of
+    the file and its comments are kept."""
+    from tomlkit.items import KeyType, SingleKey
+
+    old = read_text(path) if path and os.path.exists(path) else ""
+    try:
+        document = tomlkit.parse(old)
+    except tomlkit.exceptions.ParseError as error:
+        raise ParseError(f"expected a TOML parts library: {error}", file=path) from None
+    if not old.strip():
+        for line in SKELETON_HEADER:
+            document.add(tomlkit.comment(line))
+        document.add(tomlkit.nl())
+    table = document.get("parts")
+    if table is None:
+        table = tomlkit.table(is_super_table=True)
+        document["parts"] = table
+    known: set[str] = set()
+    for name, entry in table.items():
+        known.add(str(name).casefold())
+        for alias in (entry.get("aliases", []) if isinstance(entry, dict) else []):
+            known.add(str(alias).casefold())
+    added, present = [], []
+    for part in parts:
+        if part["part"].casefold() in known:
+            present.append(part["part"])
+            continue
+        known.add(part["part"].casefold())
+        table.add(SingleKey(part["part"], t=KeyType.Basic), skeleton_entry(part))
+        added.append(part["part"])
+    return old, tomlkit.dumps(document), added, present

@@ -5,6 +5,7 @@
     default_tolerance = "1%"          # resistors without a Tolerance field
     parts_library = "parts.toml"      # relative to this file
     rules_off = ["missing-parameters"]
+    estimate_missing = false          # true: class estimates for missing op-amp figures
     monte_carlo_samples = 10000
     seed = 1
     [source_resistance]               # nets driven from outside the design
@@ -28,7 +29,7 @@ from schemcheck.io.files import read_text
 
 SETTINGS_NAME = "schemcheck.toml"
 _KEYS = ("temperature_range", "default_budget", "default_tolerance", "parts_library",
-         "rules_off", "monte_carlo_samples", "seed", "source_resistance")
+         "rules_off", "monte_carlo_samples", "seed", "source_resistance", "estimate_missing")
 
 
 def find_settings(design_root: str) -> str | None:
@@ -101,6 +102,10 @@ def apply_settings(data: dict[str, Any], path: str, base: Settings) -> Settings:
         if not isinstance(value, int) or not 0 <= value <= 1_000_000:
             raise bad("monte_carlo_samples", "a whole number from 0 to 1000000")
         changes["mc_samples"] = value
+    if "estimate_missing" in data:
+        if not isinstance(data["estimate_missing"], bool):
+            raise bad("estimate_missing", "true or false")
+        changes["estimate_missing"] = data["estimate_missing"]
     if "seed" in data:
         if not isinstance(data["seed"], int):
             raise bad("seed", "a whole number")

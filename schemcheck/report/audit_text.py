@@ -14,6 +14,7 @@ import os
 from typing import Any
 
 from schemcheck.report import stage_lines as sl
+from schemcheck.partdata import DISPLAY
 from schemcheck.units import format_si
 
 _COLUMNS = ("stage", "topology", "output", "noise gain", "R+", "R-", "own 25°C", "total 25°C",
@@ -89,6 +90,7 @@ def stage_details(s: dict[str, Any], span: tuple[float, float] | None) -> list[t
         lines.append(("coefficients", sl.coefficients(s)))
     lines.append(("compensation", sl.compensation(s)))
     lines.append(("needs", sl.requirements(s, span)))
+    lines.append(("part data", "; ".join(figure_marks(s))))
     return [(label, text) for label, text in lines if text]
 
 
@@ -107,6 +109,28 @@ def _table(design: dict[str, Any]) -> list[str]:
         out.append(line(row))
         out += [f"      {label}: {text}" for label, text in stage_details(s, span)]
     return out
+
+
+_NAMES = DISPLAY
+
+
+def figure_marks(stage: dict[str, Any]) -> list[str]:
+    """What a stage's budget rests on besides maxima: ``typical only: TCVos``,
+    ``estimate (class jfet): Vos, Ib, Ios``, the library entry found by family."""
+    params = stage.get("params") or {}
+    marks = []
+    if params.get("typical_only"):
+        marks.append("typical only: " + ", ".join(_NAMES.get(n, n)
+                                                  for n in params["typical_only"]))
+    estimate = params.get("estimate")
+    if estimate:
+        marks.append(f"estimate (class {estimate['class']}): "
+                     + ", ".join(_NAMES.get(n, n) for n in estimate["figures"]))
+    how = next((v for v in (params.get("source") or {}).values()
+                if v.startswith("library:") and " via " in v), None)
+    if how:
+        marks.append(how.removesuffix(" (typical only)"))
+    return marks
 
 
 def audit_text(report: dict[str, Any]) -> str:

@@ -14,15 +14,20 @@ from typing import Any
 
 from schemcheck.model import Finding
 from schemcheck.results import (
-    Compensation, Contributor, DesignResult, ErrorSplit, MissingAcross, MissingPart, NotAnalysed,
+    AmbiguousMatch, Compensation, Contributor, Estimate, LibraryMatch, LibrarySource, DesignResult, ErrorSplit, MissingAcross, MissingPart, NotAnalysed,
     ParamsUsed, PartRequirements, Report, Sensitivity, Shard, StageResult, Tool, Upstream,
 )
+
+
+def json_key(spec: dataclasses.Field) -> str:
+    """The JSON key of a model field (its name, unless the key is a Python keyword)."""
+    return spec.metadata.get("key", spec.name)
 
 
 def to_data(value: Any) -> Any:
     """``value`` (a results object, or lists/dicts of them) as plain JSON data."""
     if dataclasses.is_dataclass(value) and not isinstance(value, type):
-        return {f.name: to_data(getattr(value, f.name)) for f in dataclasses.fields(value)
+        return {json_key(f): to_data(getattr(value, f.name)) for f in dataclasses.fields(value)
                 if not (f.metadata.get("omit_when_none") and getattr(value, f.name) is None)}
     if isinstance(value, float):
         if not math.isfinite(value):
@@ -41,18 +46,25 @@ def dumps(data: Any) -> str:
 
 
 def _build(cls: type, data: dict[str, Any], nested: dict[str, Any]) -> Any:
-    names = {f.name for f in dataclasses.fields(cls)}
-    kwargs = {k: v for k, v in data.items() if k in names}
+    names = {json_key(f): f.name for f in dataclasses.fields(cls)}
+    kwargs = {names[k]: v for k, v in data.items() if k in names}
     for name, convert in nested.items():
         if name in kwargs and kwargs[name] is not None:
             kwargs[name] = convert(kwargs[name])
     return cls(**kwargs)
 
 
+def _params_from_data(data: dict[str, Any]) -> ParamsUsed:
+    return _build(ParamsUsed, data, {
+        "estimate": lambda d: _build(Estimate, d, {}),
+        "match": lambda d: _build(LibraryMatch, d, {}),
+        "ambiguous_match": lambda d: _build(AmbiguousMatch, d, {})})
+
+
 def stage_from_data(data: dict[str, Any]) -> StageResult:
     return _build(StageResult, data, {
         "sensitivity": lambda d: _build(Sensitivity, d, {}),
-        "params": lambda d: _build(ParamsUsed, d, {}),
+        "params": _params_from_data,
         "contributors": lambda items: [_build(Contributor, c, {}) for c in items],
         "split": lambda d: _build(ErrorSplit, d, {}),
         "upstream": lambda items: [_build(Upstream, u, {}) for u in items],
@@ -66,7 +78,8 @@ def design_from_data(data: dict[str, Any]) -> DesignResult:
         "stages": lambda items: [stage_from_data(s) for s in items],
         "findings": lambda items: [_build(Finding, f, {}) for f in items],
         "not_analysed": lambda items: [_build(NotAnalysed, n, {}) for n in items],
-        "missing_parameters": lambda items: [_build(MissingPart, m, {}) for m in items]})
+        "missing_parameters": lambda items: [_build(MissingPart, m, {}) for m in items],
+        "parts_libraries": lambda items: [_build(LibrarySource, m, {}) for m in items]})
 
 
 def report_from_data(data: dict[str, Any]) -> Report:
@@ -119,8 +132,8 @@ def check_data(cls: type, data: Any, trail: str = "") -> tuple[str, str] | None:
     required, must be present; fields are taken in name order."""
     if not isinstance(data, dict):
         return trail, "Invalid input type."
-    hints = typing.get_type_hints(cls)
-    fields = {f.name: f for f in dataclasses.fields(cls)}
+    hints = {json_key(f): typing.get_type_hints(cls)[f.name] for f in dataclasses.fields(cls)}
+    fields = {json_key(f): f for f in dataclasses.fields(cls)}
     for name in sorted(set(fields) | set(data)):
         where = f"{trail}.{name}" if trail else name
         if name not in fields:

@@ -9,7 +9,9 @@ from __future__ import annotations
 from typing import Any
 
 from schemcheck.report import stage_lines as sl
-from schemcheck.report.audit_text import finding_text, settings_line, stage_details, temp_range
+from schemcheck.report.audit_text import (
+    finding_text, settings_line, stage_details, temp_range,
+)
 
 _ICON = {"error": "**error**", "warning": "warning", "info": "info"}
 

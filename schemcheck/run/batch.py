@@ -11,7 +11,7 @@ import os
 import sys
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import replace
-from typing import Any, Callable
+from typing import TYPE_CHECKING, Any, Callable
 
 from schemcheck import __version__
 from schemcheck.errors import ParseError, SchemcheckError
@@ -21,17 +21,26 @@ from schemcheck.report.json import to_data
 from schemcheck.results import DesignResult, Report, Tool, missing_across
 from schemcheck.settings import Settings
 
+if TYPE_CHECKING:
+    from schemcheck.engine.partmatch import PartsLibrary
+
 UNREADABLE = "unreadable-design"
 
 
 def settings_for(root: str, base: Settings, overrides: dict[str, Any],
                  settings_path: str | None = None) -> Settings:
-    """Defaults < the settings file beside the design (or ``settings_path``) < options."""
+    """Defaults < the settings file beside the design (or ``settings_path``) < options.
+    The user-level parts library is added where the file exists."""
+    from schemcheck.io.partslib import user_library_path
     from schemcheck.io.settings_file import find_settings, load_settings
 
     path = settings_path or find_settings(root)
     settings = load_settings(path, base) if path else base
     given = set(settings.given) | set(overrides.pop("given", ()))
+    if settings.user_parts_library is None and "user_parts_library" not in overrides:
+        user = user_library_path()
+        if os.path.isfile(user):
+            overrides["user_parts_library"] = user
     return replace(settings, **overrides, given=tuple(sorted(given)))
 
 
@@ -41,7 +50,8 @@ def design_key_for(design: DesignRef, settings: Settings) -> str | None:
     from schemcheck.run.cache import design_key
 
     try:
-        return design_key(design.files, settings.describe(), settings.parts_library)
+        return design_key(design.files, settings.describe(),
+                          [path for _, path in settings.parts_libraries()])
     except OSError:
         return None
 
@@ -66,30 +76,46 @@ def _unreadable(root: str, message: str, settings: Settings | None = None) -> di
                                 settings=(settings or Settings()).describe()))
 
 
-_LIBRARIES: dict[str, tuple[float, dict]] = {}
+#: path -> (content digest, entries): a library is parsed again only when its content
+#: changed (a modification time can stay the same across a quick edit)
+_LIBRARIES: dict[str, tuple[str, dict]] = {}
+
+
+def read_libraries(root: str, settings: Settings) -> PartsLibrary:
+    """The parts libraries ``settings`` name, read and laid over each other (a
+    :class:`schemcheck.engine.partmatch.PartsLibrary`); paths shown relative to the
+    design's folder (the user's library as an absolute path)."""
+    from schemcheck.engine.partmatch import LibrarySource, PartsLibrary
+    from schemcheck.io.partslib import load_parts_library
+
+    layers = []
+    folder = os.path.dirname(os.path.abspath(root))
+    for origin, path in settings.parts_libraries():
+        from schemcheck.run.cache import file_digest
+
+        stamp = file_digest(path)
+        cached = _LIBRARIES.get(path)
+        if cached is None or cached[0] != stamp:
+            cached = _LIBRARIES[path] = (stamp, load_parts_library(path))
+        shown = path if origin == "user" else os.path.relpath(os.path.abspath(path), folder)
+        layers.append((LibrarySource(origin, shown, len(cached[1])), cached[1]))
+    return PartsLibrary.layered(layers)
 
 
 def audit_one(root: str, settings: Settings) -> dict[str, Any]:
     """Audit one design; any error of ours becomes an unreadable-design result."""
     from schemcheck.audit import audit_netlist
     from schemcheck.circuit.load import load_netlist
-    from schemcheck.io.partslib import load_parts_library
 
     try:
-        library: dict = {}
-        if settings.parts_library:
-            stamp = os.path.getmtime(settings.parts_library)
-            cached = _LIBRARIES.get(settings.parts_library)
-            if cached is None or cached[0] != stamp:
-                cached = _LIBRARIES[settings.parts_library] = (
-                    stamp, load_parts_library(settings.parts_library))
-            library = cached[1]
+        library = read_libraries(root, settings)
         return to_data(audit_netlist(load_netlist(root), settings, library))
     except SchemcheckError as error:
         detail = str(error)
         return _unreadable(root, detail, settings)
     except OSError as error:
-        return _unreadable(root, f"{root}: could not read ({error.strerror or error})", settings)
+        name = error.filename or root
+        return _unreadable(root, f"{name}: could not read ({error.strerror or error})", settings)
 
 
 def _audit_task(args: tuple[str, Settings]) -> dict[str, Any]:

@@ -36,21 +36,30 @@ def file_digest(path: str) -> str:
     return digest.hexdigest()
 
 
-def design_key(files: tuple[str, ...], settings: dict[str, Any], library: str | None) -> str:
+def design_key(files: tuple[str, ...], settings: dict[str, Any],
+               library: str | list[str] | None) -> str:
     """Content key of one audit: files (relative to the root's folder), settings,
-    parts library content and the tool version."""
+    the content of every parts library and the tool version."""
     base = os.path.dirname(files[0])
+    libraries = [library] if isinstance(library, str) else list(library or [])
     settings = dict(settings)
-    if library:  # its content is hashed below; where it lies only matters beside the design
-        settings["parts_library"] = os.path.relpath(library, base)
+    # their content is hashed below; where they lie only matters beside the design
+    if settings.get("parts_library"):
+        settings["parts_library"] = os.path.relpath(settings["parts_library"], base)
+    if settings.get("parts_libraries"):
+        settings["parts_libraries"] = [{**item, "path": os.path.relpath(item["path"], base)}
+                                       for item in settings["parts_libraries"]]
     digest = hashlib.sha256()
     digest.update(f"schemcheck {__version__}\n".encode())
     digest.update(json.dumps(settings, sort_keys=True, default=str).encode())
     for path in files:
         digest.update(os.path.relpath(path, base).encode() + b"\0")
         digest.update(file_digest(path).encode())
-    if library and os.path.isfile(library):
-        digest.update(b"library\0" + file_digest(library).encode())
+    for path in libraries:
+        if os.path.isfile(path):
+            digest.update(b"library\0" + file_digest(path).encode())
+        else:
+            digest.update(b"no library\0" + path.encode())
     return digest.hexdigest()
 
 

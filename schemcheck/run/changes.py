@@ -95,8 +95,8 @@ def design_inputs(design: DesignRef, settings: Settings | None,
             files.update(referenced_sheets(sheet))
     folder = os.path.dirname(design.root)
     files.add(settings_path or os.path.join(folder, SETTINGS_NAME))
-    if settings is not None and settings.parts_library:
-        files.add(settings.parts_library)
+    if settings is not None:  # the user's, the project's and the command line's libraries
+        files.update(path for _, path in settings.parts_libraries())
     stem, suffix = os.path.splitext(design.root)
     if suffix == ".kicad_sch":
         files.add(stem + ".kicad_pro")

@@ -10,15 +10,16 @@ from schemcheck.units import ValueFormatError, parse_quantity, parse_temperature
 
 def options_to_overrides(*, temp: str | None = None, parts: str | None = None,
                          budget: str | None = None, samples: int | None = None,
-                         seed: int | None = None) -> dict[str, Any]:
+                         seed: int | None = None,
+                         estimate_missing: bool | None = None) -> dict[str, Any]:
     """Settings values given on the command line (they override the settings file)."""
     changes: dict[str, Any] = {}
     given: list[str] = []
     if temp is not None:
         changes["temp_range"] = parse_temperature_range(temp)
         given.append("temp_range")
-    if parts is not None:
-        changes["parts_library"] = parts
+    if parts is not None:  # laid over the project's library, not instead of it
+        changes["command_line_parts"] = parts
     if budget is not None:
         try:
             changes["default_budget"] = abs(parse_quantity(budget, "volt", what="--budget").value)
@@ -29,6 +30,8 @@ def options_to_overrides(*, temp: str | None = None, parts: str | None = None,
         changes["mc_samples"] = samples
     if seed is not None:
         changes["seed"] = seed
+    if estimate_missing:
+        changes["estimate_missing"] = True
     if given:
         changes["given"] = tuple(given)
     return changes
