@@ -250,8 +250,10 @@ RTOL = 1e-4
 #: (the reference's own error is under about 1e-7 of it, see the module docstring)
 FLOOR_OF_SOURCE = 1e-6
 #: absolute floor for a source that moves no output at all, as a fraction of the
-#: circuit's largest sensitivity to that kind of source
-FLOOR_OF_KIND = 1e-12
+#: circuit's largest sensitivity in the same unit (V/V for Vos, V/A for bias currents)
+FLOOR_OF_UNIT = 1e-12
+_SAME_UNIT = {"vos": ("vos",), "ib_plus": ("ib_plus", "ib_minus"),
+              "ib_minus": ("ib_plus", "ib_minus")}
 
 
 @dataclass(frozen=True, slots=True)
@@ -277,17 +279,16 @@ class Entry:
 def entries(circuit: RandomCircuit, ours: EngineResult, spice: Sensitivities) -> list[Entry]:
     """Every op-amp output's sensitivity to every op-amp's Vos, Ib+ and Ib-, with the
     allowance RTOL |ngspice| + FLOOR_OF_SOURCE x (largest effect of that source on any
-    output) + FLOOR_OF_KIND x (largest sensitivity of the circuit to that kind of
-    source)."""
+    output) + FLOOR_OF_UNIT x (largest sensitivity of the circuit in the same unit)."""
     keys = [amp.key for amp in circuit.amps]
     out: list[Entry] = []
     for source in SOURCES:
-        kind_scale = max((abs(v) for (_, _, s), v in spice.items() if s == source),
-                         default=0.0)
+        unit_scale = max((abs(v) for (_, _, s), v in spice.items()
+                          if s in _SAME_UNIT[source]), default=0.0)
         for amp in keys:
             column = {k: spice.get((k, amp, source), 0.0) for k in keys}
             floor = FLOOR_OF_SOURCE * max(abs(v) for v in column.values()) \
-                + FLOOR_OF_KIND * kind_scale
+                + FLOOR_OF_UNIT * unit_scale
             out.extend(Entry(k, amp, source, reference,
                              ours.sensitivity.get((k, amp, source), 0.0), floor)
                        for k, reference in column.items())
