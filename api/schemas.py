@@ -77,11 +77,21 @@ class StageSchema(Schema):
     within_budget = fields.Boolean(allow_none=True)
     depends_on_undefined_output = fields.Boolean()
     contributors = fields.List(fields.Nested(ContributorSchema))
+    noise_gain_range = fields.List(_num(), allow_none=True, metadata={
+        "description": "V/V: the lowest and highest noise gain over the travel of the "
+                       "potentiometers the stage depends on (null: none)"})
+    budget_at = fields.String(allow_none=True, metadata={
+        "description": "the potentiometer setting the error budget is taken at (the worse "
+                       "end), where it is not mid-travel"})
+    excludes = fields.List(fields.String(), metadata={
+        "description": "amplifiers that are not analysed whose outputs feed this stage: its "
+                       "totals leave out their error"})
 
 
 class NotAnalysedSchema(Schema):
     ref = fields.String()
     unit = fields.Integer(allow_none=True)
+    channel = fields.Integer(allow_none=True)
     sheet = fields.String()
     value = fields.String()
     reason = fields.String()

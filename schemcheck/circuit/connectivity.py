@@ -406,7 +406,7 @@ def _name_nets(joining: _Joining) -> list[Net]:
     nets = []
     for root_id, nodes in node_sets.items():
         ordered = tuple(sorted(nodes, key=lambda n: (_natural(n.ref), _natural(n.pin))))
-        cands = merged_names.get(root_id)
+        cands = merged_names.get(root_id, [])
         if cands:
             best = min(cands)
             labels = tuple(sorted({c[2] for c in cands}))

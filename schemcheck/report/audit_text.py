@@ -37,9 +37,12 @@ def audit_text(report: dict[str, Any]) -> str:
                 f"{budget:>10}  {verdict}")
         if not design["stages"]:
             lines.append("  (no op-amp stages found)")
+        for s in design["stages"]:
+            lines.extend(_stage_notes(s))
         for item in design["not_analysed"]:
-            lines.append(f"  not analysed: {item['ref']} unit {item['unit']} ({item['value']}): "
-                         f"{item['reason']}")
+            channel = f" amplifier {item['channel']}" if item.get("channel") else ""
+            lines.append(f"  not analysed: {item['ref']} unit {item['unit']}{channel} "
+                         f"({item['value']}): {item['reason']}")
         lines.append("")
         for f in design["findings"]:
             lines.append(f"  {f['severity'].upper():<7} {f['rule']:<22} {f['ref']}: {f['message']}")
@@ -53,3 +56,19 @@ def audit_text(report: dict[str, Any]) -> str:
             lines.append(f"  error: {error}")
         lines += ["", f"  {design['caution']}", ""]
     return "\n".join(lines)
+
+
+def _stage_notes(s: dict[str, Any]) -> list[str]:
+    """What the table cannot hold: a potentiometer's noise-gain range, excluded sources."""
+    name = s["ref"] + (f"/{s['unit']}" if s["unit"] else "")
+    if s.get("channel"):
+        name += f".{s['channel']}"
+    out = []
+    span = s.get("noise_gain_range")
+    if span:
+        where = f"; budget at {s['budget_at']}" if s.get("budget_at") else ""
+        out.append(f"  {name}: noise gain {span[0]:.4g} to {span[1]:.4g} over the travel of "
+                   f"its potentiometers{where}")
+    if s.get("excludes"):
+        out.append(f"  {name}: totals exclude {', '.join(s['excludes'])} (not analysed)")
+    return out

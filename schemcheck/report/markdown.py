@@ -25,8 +25,15 @@ def _stage_line(s: dict[str, Any]) -> str:
     else:
         verdict, checked = "**FAIL**", " "
     budget = format_si(s["budget_v"], "V") if s["budget_v"] is not None else "none"
+    notes = ""
+    span = s.get("noise_gain_range")
+    if span:
+        notes += f" (noise gain {span[0]:.4g} to {span[1]:.4g} over potentiometer travel"
+        notes += f"; budget at {s['budget_at']})" if s.get("budget_at") else ")"
+    if s.get("excludes"):
+        notes += f"; totals exclude {', '.join(s['excludes'])} (not analysed)"
     return (f"- [{checked}] {name} ({s['value']}, {s['sheet']}): {s['topology']}, noise gain "
-            f"{gain}, worst case {worst} over temperature, budget {budget}: {verdict}")
+            f"{gain}, worst case {worst} over temperature, budget {budget}: {verdict}{notes}")
 
 
 def checklist(report: dict[str, Any]) -> str:
@@ -44,8 +51,9 @@ def checklist(report: dict[str, Any]) -> str:
         lines.append("Stages:")
         lines += [_stage_line(s) for s in design["stages"]] or ["- (no op-amp stage found)"]
         for item in design["not_analysed"]:
-            lines.append(f"- [ ] {item['ref']} unit {item['unit']} ({item['value']}): not analysed, "
-                         f"{item['reason']}")
+            channel = f" amplifier {item['channel']}" if item.get("channel") else ""
+            lines.append(f"- [ ] {item['ref']} unit {item['unit']}{channel} ({item['value']}): "
+                         f"not analysed, {item['reason']}")
         lines.append("")
         if design["findings"]:
             lines.append("Findings:")

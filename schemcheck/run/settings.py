@@ -21,6 +21,10 @@ class Settings:
     source_resistance: dict[str, float] = field(default_factory=dict)  # net -> ohms
     disabled_rules: tuple[str, ...] = ()
     parts_library: str | None = None
+    #: resistive parts' values by reference, where the drawing's cannot be read
+    values: dict[str, str] = field(default_factory=dict)
+    #: house notations: (regular expression over a whole Value, what it means)
+    value_notations: tuple[tuple[str, str], ...] = ()
     #: which of the values above were set by the user (the rest are defaults)
     given: tuple[str, ...] = ()
 
@@ -34,6 +38,8 @@ class Settings:
             "source_resistance_ohm": dict(self.source_resistance),
             "disabled_rules": list(self.disabled_rules),
             "parts_library": self.parts_library,
+            "values": dict(self.values),
+            "value_notations": [list(pair) for pair in self.value_notations],
             "defaults_used": [name for name in ("temp_range", "default_tolerance",
                                                 "default_budget") if name not in self.given],
         }
