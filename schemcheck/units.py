@@ -149,7 +149,7 @@ def read_resistance(text: str, what: str = "resistance", *, taper: bool = False
         match = _OHM_PLAIN.match(raw)
         if not match:
             raise ValueFormatError(f"expected a resistance for {what} (like 10k, 4k7, 2.2 kΩ, "
-                                   f"10Meg), found {text!r}")
+                                   f"10Meg{', 100kA' if taper else ''}), found {text!r}")
         mult = match.group("mult") or ""
         number = float(match.group("num"))
     rest = match.group("rest")

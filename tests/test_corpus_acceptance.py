@@ -97,6 +97,12 @@ def test_scopetrex_sample_and_hold_through_a_multiplexer_is_not_an_error():
     assert not [f for f in result.findings if f.rule in ("no-bias-path", "no-dc-feedback")]
     for unit in (1, 2, 3, 4):
         assert "U302 (analog switch or multiplexer)" in reason(result, "U303", unit)
+    # U306 units 2 and 4 follow the held outputs: R318 4.7K in, R347 4.7K back,
+    # 1 + 4.7k/4.7k = 2, their totals leaving out the hold buffers they are fed from.
+    for unit, source in ((2, "U303 unit 1"), (4, "U303 unit 4")):
+        follower = stage(result, "U306", unit)
+        assert follower["noise_gain"] == pytest.approx(2.0, rel=1e-9)
+        assert follower["excludes"] == [source]
 
 
 @needs_corpus
@@ -131,6 +137,22 @@ def test_magnum_ota_output_and_header_on_the_summing_node():
     assert findings(result, "U5", 2) == [("dc-path-unknown", "warning")]
     assert "J5 (connector)" in reason(result, "U5", 2)
     assert not [f for f in result.findings if f.severity == "error"]
+
+
+@needs_corpus
+def test_io_buffers_fed_through_series_resistors_from_the_io_pins():
+    # The IO pins BPIO0..7 come from another sheet (global labels); each reaches a
+    # follower's + input through 100K (RN317...): analysed, noise gain 1. Pull-ups
+    # switched by transistors and a 16-channel multiplexer elsewhere do not make the
+    # pins part of the followers' loops.
+    result = audit("DangerousPrototypes__BusPirate5-hardware/bus_pirate_pcb/5XL-REV0/"
+                   "IO-expand-595-mux.kicad_sch")
+    for ref in ("U504", "U505"):
+        for unit in (1, 2, 3, 4):
+            follower = stage(result, ref, unit)
+            assert follower["noise_gain"] == pytest.approx(1.0, rel=1e-9)
+            assert follower["resistance_plus_ohm"] == pytest.approx(100e3, rel=1e-9)
+    assert "U402 (analog switch or multiplexer)" in reason(result, "U404", 1)
 
 
 @needs_corpus

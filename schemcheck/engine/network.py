@@ -696,6 +696,13 @@ def _reaches(adjacency: Mapping[str, Iterable[str]], start: str, targets: set[st
     return False
 
 
+#: Parts that may conduct with more signal nets than this (multiplexers, arrays) are not
+#: taken as closing an op-amp's loop when deciding where a source may go: through them
+#: every net would lie on some loop. (A stage whose own path runs only through one is
+#: still not analysed: see :mod:`schemcheck.engine.coverage`.)
+_LOOP_PART_NETS = 6
+
+
 class _Loops:
     """Which nets lie on a path between an op-amp's output and its inputs (through
     resistors, capacitors, parts that may conduct and other op-amps; not through supply
@@ -720,7 +727,11 @@ class _Loops:
                 link(joined[0], x)
         open_as_drawn: dict[str, set[str]] = {}
         for ref, nets in b.may_conduct.items():
-            for net in {canon(n) for n in nets}:
+            signal = {canon(n) for n in nets} - rails
+            if len(signal) > _LOOP_PART_NETS and b.kinds.get(ref) not in ("connector",
+                                                                          "open jumper"):
+                continue  # a multiplexer or an array: every net through it is not a loop
+            for net in signal:
                 if b.kinds.get(ref) in ("connector", "open jumper"):
                     # open as drawn: a source beside them cuts no drawn path; but an
                     # op-amp input reached only through them is not a source's place
