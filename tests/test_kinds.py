@@ -271,3 +271,16 @@ def test_stage_fed_by_a_stage_not_analysed_excludes_it():
     assert stage["excludes"] == ["U1 unit 1"]
     assert [item["reason"] for item in result.not_analysed] == [
         "DC feedback can only run through Q1 (transistor)"]
+
+
+def test_port_pin_named_io_drives_its_net():
+    # Module pins named IO0, IO2 ... are ports, not current outputs: 1 + 22k/10k = 3.2.
+    board = Board()
+    board.add("U3", "RF_Module:Invented_Module", "MODX-1", {"1": "PORT", "2": "GND", "3": "VCC"},
+              {"1": "bidirectional", "2": "power_in", "3": "power_in"},
+              {"1": "IO2", "2": "GND", "3": "3V3"}, description="Radio module")
+    board.add("R1", "Device:R", "10k", {"1": "PORT", "2": "SUM"})
+    board.add("R2", "Device:R", "22k", {"1": "SUM", "2": "OUT"})
+    board.opamp("U1", "GND", "SUM", "OUT")
+    (stage,) = board.audit().stages
+    assert stage["noise_gain"] == pytest.approx(3.2, rel=1e-12)

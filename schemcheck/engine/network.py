@@ -48,7 +48,7 @@ _DRIVING = ("output", "power_out", "bidirectional", "tri_state")
 _ANY_DRIVER = ("output", "power_out", "bidirectional", "tri_state", "open_collector",
                "open_emitter")
 #: Current outputs are not voltage sources.
-_CURRENT_OUT = re.compile(r"^I_?OUT|^IO\d|current[- ]output", re.I)
+_CURRENT_OUT = re.compile(r"^I_?OUT", re.I)
 _CURRENT_PART = re.compile(r"current[- ]output|transconductance|\bOTA\b", re.I)
 #: Pin types through which a net may get its DC level from a part the tool does not model.
 _LEAF_TYPES = ("output", "power_out", "bidirectional", "tri_state", "passive", "unspecified",
