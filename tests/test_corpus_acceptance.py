@@ -85,6 +85,8 @@ def test_scopetrex_video_driven_by_a_port_pin(library):
     # R315 2.2K: 1 + R353 / (R351 + R315) = 1 + 4.7k / (4.7k + 2.2k) = 1.681.
     u306 = stage(result, "U306", 3)
     assert u306["noise_gain"] == pytest.approx(1 + 4.7e3 / 6.9e3, rel=0.015)
+    assert ("net /~{BLANK}: driven by U207 pin 19 (bidirectional), taken as an ideal 0 V "
+            "source (zero source impedance unless annotated)") in result.assumptions
     # + sees R349 || R350 = 2.35k, - sees 6.9k || 4.7k = 2.80k: within the 20 % band.
     assert findings(result, "U306", 3) == []
     # U304 unit 1 unchanged: 1.523 (its feedback through the R302 pot at mid-travel).

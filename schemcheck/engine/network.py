@@ -916,13 +916,25 @@ def _note_sources(network: Network, notes: list[str]) -> None:
     if rails:
         network.assumptions.append("supply rails and ground are ideal 0 V sources for the error "
                                    f"analysis: {', '.join(rails)}")
-    for net in sorted(near):
+    # the sources a stage's inputs reach through resistors, however far
+    outputs = {opamp.out for opamp in network.opamps}
+    reached: set[str] = set()
+    queue = deque(n for opamp in network.opamps for n in (opamp.plus, opamp.minus))
+    while queue:
+        net = queue.popleft()
+        if net in reached:
+            continue
+        reached.add(net)
+        if net in network.fixed or net in outputs:
+            continue
+        queue.extend(r.b if r.a == net else r.a for r in network.resistors_at(net))
+    for net in sorted(near | reached):
         why = network.fixed.get(net, "")
         if why.startswith(("external", "driven by")):
             network.assumptions.append(f"net {net}: {why}, taken as an ideal 0 V source "
                                        "(zero source impedance unless annotated)")
     for note in notes:
         net = note[4:].split(":", 1)[0]
-        if net in near:
+        if net in near or net in reached:
             network.assumptions.append(note)
 
