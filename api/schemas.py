@@ -188,6 +188,15 @@ class StageSchema(Schema):
     upstream = fields.List(fields.Nested(UpstreamSchema))
     compensation = fields.Nested(CompensationSchema, allow_none=True)
     requirements = fields.Nested(PartRequirementsSchema, allow_none=True)
+    noise_gain_range = fields.List(_num(), allow_none=True, metadata={
+        "description": "V/V: the lowest and highest noise gain over the travel of the "
+                       "potentiometers the stage depends on (null: none)"})
+    budget_at = fields.String(allow_none=True, metadata={
+        "description": "the potentiometer setting the error budget is taken at (the worse "
+                       "end), where it is not mid-travel"})
+    excludes = fields.List(fields.String(), metadata={
+        "description": "amplifiers that are not analysed whose outputs feed this stage: its "
+                       "totals leave out their error"})
 
 
 class NotAnalysedSchema(Schema):
@@ -197,6 +206,7 @@ class NotAnalysedSchema(Schema):
     value = fields.String()
     reason = fields.String()
     id = fields.String()
+    channel = fields.Integer(allow_none=True)
 
 
 class DesignSchema(Schema):

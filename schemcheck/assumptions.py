@@ -21,10 +21,12 @@ from schemcheck.partdata import DISPLAY
 from schemcheck.units import format_si
 
 _POT = re.compile(r"^(?P<name>.+): potentiometer taken at mid-travel "
-                  r"\((?P<ohms>\S+) Ω each side\)$")
+                  r"\((?P<ohms>\S+) Ω each side(?:, taper \w+)?\)$")
 _ANNOTATED = re.compile(r"^net (?P<net>.+): driven through the annotated source resistance "
                         r"(?P<ohms>\S+) Ω$")
-_IDEAL = re.compile(r"^net (?P<net>.+): (?P<why>.+), taken as an ideal 0 V source \(.*\)$")
+_IDEAL = re.compile(r"^net (?P<net>.+?): (?P<why>(?:external|driven by|global label).+), taken as "
+                    r"an ideal 0 V source \(.*\)$")
+_LEFT_OPEN = re.compile(r"^net (?P<net>.+?): (?P<why>.+), left open: (?P<reason>.+)$")
 _CONNECTOR = re.compile(r"^external \(connector (?P<ref>[^)]+)\)$")
 _DRIVEN = re.compile(r"^driven by (?P<what>.+)$")
 _RAILS = re.compile(r"^supply rails and ground are ideal 0 V sources for the error analysis: "
@@ -80,12 +82,16 @@ def _group_network(notes: list[str]) -> list[str]:
     annotated: dict[str, str] = {}
     ideal: dict[str, str] = {}
     driven: dict[str, str] = {}
+    left_open: dict[str, list[str]] = {}
     other: list[str] = []
     for note in notes:
         if m := _RAILS.match(note):
             other.append(f"rails and ground (0 V sources): {m['nets']}")
         elif m := _POT.match(note):
             pots.setdefault(m["ohms"], []).append(m["name"])
+        elif m := _LEFT_OPEN.match(note):
+            origin = m["why"].removeprefix("reached from outside ")
+            left_open.setdefault(m["reason"], []).append(f"{m['net']} {origin}")
         elif m := _ANNOTATED.match(note):
             annotated[m["net"]] = m["ohms"]
         elif m := _IDEAL.match(note):
@@ -119,9 +125,13 @@ def _group_network(notes: list[str]) -> list[str]:
                           "[source_resistance] in the settings)")
         lines.append("nets driven from outside the design, as 0 V sources: " + "; ".join(groups))
     if driven:
-        lines.append("nets driven by parts that are not analysed, as ideal 0 V sources: "
+        lines.append("nets driven by other parts (outputs, ports, amplifiers not analysed), "
+                     "as ideal 0 V sources: "
                      + ", ".join(f"{net} from {what}" for net, what in
                                  sorted(driven.items(), key=lambda i: natural_key(i[0]))))
+    for reason, nets in left_open.items():
+        lines.append(f"would-be sources left open ({reason}): "
+                     + ", ".join(sorted(nets, key=natural_key)))
     if pots:
         lines.append("potentiometers at mid-travel: " + "; ".join(
             f"{compact(names)} ({_ohms(ohms)} each side)"

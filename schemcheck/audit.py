@@ -23,11 +23,16 @@ from schemcheck.results import (
     LibrarySource, ErrorSplit, MissingPart, NotAnalysed, ParamsUsed,
     PartRequirements, Sensitivity, StageResult, Upstream,
 )
-from schemcheck.engine.network import build_network
+from schemcheck.circuit.values import ValueRules
+from schemcheck.engine.budget import StageBudget
+from schemcheck.engine.coverage import Omission, excluded_sources, omissions
+from schemcheck.engine.dcerror import Solution
+from schemcheck.engine.network import Network, build_network
+from schemcheck.engine.travel import Setting, Travel, travels
 from schemcheck.engine.params import OpampParams, ParameterError, resolve
 from schemcheck.engine.partmatch import PartsLibrary, sources_line
 from schemcheck.settings import Settings
-from schemcheck.engine.stages import amplifier_name, recognise
+from schemcheck.engine.stages import OpampUnit, SkippedAmplifier, amplifier_name, recognise
 from schemcheck.engine.topology import label
 from schemcheck.units import ValueFormatError, parse_quantity
 
@@ -56,16 +61,23 @@ def audit_netlist(netlist: Netlist, settings: Settings,
                           errors=list(netlist.errors),
                           parts_libraries=[LibrarySource(**s.to_dict()) for s in library.sources])
     units, skipped = recognise(netlist.parts)
+    network, solution, omitted = _analysable(netlist, units, skipped, settings)
+    promoted = {op.unit.key for op in network.opamps if op.symbol == "comparator"}
+    promoted.update(unit.key for unit, _ in omitted)
     for s in skipped:
-        result.not_analysed.append(NotAnalysed(s.part.ref, s.part.unit, s.part.sheet,
-                                               s.part.value, s.reason, amplifier_name(s.part)))
-    network = build_network(netlist, units, skipped,
-                            default_tolerance=settings.default_tolerance,
-                            source_resistance=settings.source_resistance)
+        if s.unit is None or s.unit.key not in promoted:
+            result.not_analysed.append(NotAnalysed(s.part.ref, s.part.unit, s.part.sheet,
+                                                   s.part.value, s.reason,
+                                                   amplifier_name(s.part)))
     for unit in network.unused:
         result.not_analysed.append(NotAnalysed(
             unit.part.ref, unit.part.unit, unit.part.sheet, unit.part.value,
-            "unused amplifier (inputs tied to rails or open, output not connected)", unit.name))
+            "unused amplifier (inputs tied to rails or open, output not connected)", unit.name,
+            unit.channel))
+    for unit, omission in omitted:
+        result.not_analysed.append(NotAnalysed(unit.part.ref, unit.part.unit, unit.part.sheet,
+                                               unit.part.value, omission.reason, unit.name,
+                                               unit.channel))
     problems = list(network.problems)
     params: list[OpampParams] = []
     for op in network.opamps:
@@ -76,15 +88,29 @@ def audit_netlist(netlist: Netlist, settings: Settings,
             p = OpampParams(source={"error": str(error)})
         params.append(p)
         op.aol = p.aol
-    solution = solve(network)
+    if any(p.aol for p in params):
+        solution = solve(network)  # the finite gains change the figures
     budgets = [stage_budget(solution, k, params, settings.temp_range)
                for k in range(len(network.opamps))]
     mc = monte_carlo(network, solution, params, settings.temp_range, settings.mc_samples,
                      settings.seed) if settings.mc_samples > 0 else {}
+    ranges = travels(network, solution)
+    budget_at: dict[int, str] = {}
+    for k, travel in ranges.items():
+        worse = _worse_end(travel, k, params, settings, budgets[k])
+        if worse is not None:
+            budgets[k], setting = worse
+            budget_at[k] = setting.describe()
+            if settings.mc_samples > 0:
+                mc[k] = monte_carlo(setting.network, setting.solution, params,
+                                    settings.temp_range, settings.mc_samples,
+                                    settings.seed).get(k)
     limits = [_budget_limit(op.unit.part, settings, problems) for op in network.opamps]
     ctx = StageContext(network, solution, params, budgets, limits, settings.temp_range,
                        settings.estimate_missing)
     findings: list[Finding] = []
+    findings.extend(_omission_finding(unit, omission) for unit, omission in omitted)
+    findings.extend(_comparator_findings(network))
     for rule_check in (checks.check_bias_path, checks.check_feedback, checks.check_parameters,
                        checks.check_part_match, checks.check_estimates,
                        checks.check_bias_resistor, checks.check_budget):
@@ -94,11 +120,19 @@ def audit_netlist(netlist: Netlist, settings: Settings,
                                    "fix or re-save the file in the schematic editor"))
     sheet_file = {(op.unit.part.ref, op.unit.part.unit): op.unit.part.source_file
                   for op in network.opamps}
+    sheet_file.update({(u.part.ref, u.part.unit): u.part.source_file for u, _ in omitted})
     result.findings = [replace(f, file=sheet_file.get((f.ref, f.unit)) or netlist.source)
                        for f in findings if f.rule not in settings.disabled_rules]
+    excludes = [excluded_sources(network, k) for k in range(len(network.opamps))]
     result.stages = [_stage_result(ctx, mc, k) for k in range(len(network.opamps))]
+    for k, stage in enumerate(result.stages):
+        span = ranges.get(k)
+        stage.noise_gain_range = [span.noise_gain_low, span.noise_gain_high] if span else None
+        stage.budget_at = budget_at.get(k)
+        stage.excludes = excludes[k]
     result.assumptions = design_assumptions(network, netlist.parts, params,
                                             {s.part.ref for s in skipped}, problems)
+    result.assumptions += _stage_notes(network, solution, ranges, budget_at, excludes, omitted)
     if library.sources:
         result.assumptions.append(sources_line(library.sources))
     result.missing_parameters = [
@@ -106,6 +140,100 @@ def audit_netlist(netlist: Netlist, settings: Settings,
                     [network.opamps[k].unit.name for k in opamps])
         for (value, missing), opamps in missing_by_part(ctx).items()]
     return result
+
+
+def _analysable(netlist: Netlist, units: list[OpampUnit], skipped: list[SkippedAmplifier],
+                settings: Settings) -> tuple[Network, Solution, list[tuple[OpampUnit, Omission]]]:
+    """The network of the stages that can be analysed, solved, and the stages left out
+    with why. Leaving a stage out can leave another one without its path (a loop through
+    both): repeated until nothing more is left out."""
+    rules = ValueRules(settings.values, settings.value_notations)
+    excluded: dict[tuple[str, int, int | None], str] = {}
+    omitted: list[tuple[OpampUnit, Omission]] = []
+    while True:
+        network = build_network(netlist, units, skipped,
+                                default_tolerance=settings.default_tolerance,
+                                source_resistance=settings.source_resistance, values=rules,
+                                excluded=excluded)
+        solution = solve(network)
+        found = [o for o in omissions(network, solution)
+                 if network.opamps[o.k].unit.key not in excluded]
+        if not found:
+            return network, solution, omitted
+        for omission in found:
+            unit = network.opamps[omission.k].unit
+            excluded[unit.key] = omission.reason
+            omitted.append((unit, omission))
+
+
+_SUGGESTIONS = {
+    "unreadable-value": "write the value in a notation the tool reads (1M or 1Meg, 4k7, "
+                        "2.2 kΩ), or give it in schemcheck.toml under [values]",
+    "dc-path-unknown": "check this stage by hand; if that part really carries no DC, the "
+                       "stage has a missing DC path",
+    "open-loop": "if the part is a comparator or an amplifier with internal gain, set its "
+                 "field Opamp=no (or draw it with its own symbol); if it is meant as an op-amp "
+                 "stage, it lacks its feedback",
+}
+
+
+def _omission_finding(unit: OpampUnit, omission: Omission) -> Finding:
+    suggestion = _SUGGESTIONS[omission.rule]
+    if omission.unreadable is not None:
+        suggestion += f" (for example {omission.unreadable.ref} = \"...\")"
+    return Finding(omission.rule, "warning", unit.part.ref, unit.part.unit,
+                   f"{unit.name} is not analysed: {omission.detail}", suggestion,
+                   unit.part.sheet, channel=unit.channel, stage=unit.name)
+
+
+def _comparator_findings(network: Network) -> list[Finding]:
+    out = []
+    for op in network.opamps:
+        if op.symbol != "comparator":
+            continue
+        part = op.unit.part
+        out.append(Finding(
+            "comparator-symbol", "warning", part.ref, part.unit,
+            f"{op.unit.name} ({part.value}) is drawn with a comparator symbol "
+            f"({part.lib_id}, {op.unit.out.electrical_type.replace('_', '-')} output) but "
+            "wired with negative DC feedback, so it is analysed as an op-amp stage: either "
+            "the symbol is wrong or the circuit will not work as drawn",
+            "if the part is an op-amp, draw it with an op-amp symbol; a comparator is not "
+            "meant to run with negative feedback", part.sheet, channel=op.unit.channel,
+            stage=op.unit.name))
+    return out
+
+
+def _worse_end(travel: Travel, k: int, params: list[OpampParams], settings: Settings,
+               mid: StageBudget) -> tuple[StageBudget, Setting] | None:
+    """The stage's budget at the potentiometer setting that gives the largest worst case
+    over temperature, where that is larger than at mid-travel."""
+    best: tuple[StageBudget, Setting] | None = None
+    worst = mid.worst_case_over_temp_v
+    if worst is None:
+        return None
+    for setting in travel.settings:
+        if setting.solution.status[k] != "ok":
+            continue
+        budget = stage_budget(setting.solution, k, params, settings.temp_range)
+        value = budget.worst_case_over_temp_v
+        if value is not None and value > worst * (1 + 1e-12):
+            worst, best = value, (budget, setting)
+    return best
+
+
+def _stage_notes(network: Network, solution: Solution, ranges: Mapping[int, Travel],
+                 budget_at: Mapping[int, str], excludes: list[list[str]],
+                 omitted: list[tuple[OpampUnit, Omission]]) -> list[str]:
+    """Values that could not be read and that no analysed stage depends on (a stage's
+    noise-gain range and what its totals exclude are in the stage itself)."""
+    out = []
+    used = {o.unreadable.ref for _, o in omitted if o.unreadable is not None}
+    for part in network.unreadable:
+        if part.ref not in used:
+            out.append(f"{part.ref} {part.field} {part.text!r} could not be read "
+                       f"({part.why}); no analysed stage depends on it")
+    return out
 
 
 _SOURCE_ORDER = ("vos", "ib", "ios", "tcvos", "ib_hot", "ios_hot", "t_hot", "input_type", "aol")

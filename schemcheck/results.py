@@ -261,6 +261,13 @@ class StageResult:
     upstream: list[Upstream] = field(default_factory=list)
     compensation: Compensation | None = None
     requirements: PartRequirements | None = None
+    #: the lowest and highest noise gain over the travel of the potentiometers the stage
+    #: depends on (V/V), or None
+    noise_gain_range: list[float] | None = None
+    #: the potentiometer setting the budget is taken at (the worse end), if not mid-travel
+    budget_at: str | None = None
+    #: amplifiers not analysed whose outputs feed this stage: its totals leave them out
+    excludes: list[str] = field(default_factory=list)
 
 
 @dataclass(slots=True)
@@ -273,6 +280,7 @@ class NotAnalysed:
     value: str
     reason: str
     id: str = ""
+    channel: int | None = None
 
 
 @dataclass(slots=True)

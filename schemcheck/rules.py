@@ -68,6 +68,30 @@ _RULES = (
          "class of input stage.",
          "A class estimate is no datasheet figure: the budget it gives is an order of "
          "magnitude, to be confirmed."),
+    Rule("unreadable-value", "warning", "Value that could not be read",
+         "A resistor's or potentiometer's value is in no notation the tool reads, or is "
+         "ambiguous (1m on a resistor: milli or mega?): every stage whose DC network runs "
+         "through it is not analysed. Give the value in the settings (by reference, or a "
+         "house notation for the whole project).",
+         "A part opened or read in silence gives a confident wrong number or a false error."),
+    Rule("dc-path-unknown", "warning", "Stage whose DC path runs through a part not modelled",
+         "An input's DC bias or the DC feedback can only run through a part whose DC "
+         "behaviour the tool does not model (a transistor, a diode, a switch or multiplexer, "
+         "a connector or open jumper, an amplifier that is not analysed): the stage is not "
+         "analysed.",
+         "Taking such a part as open would report a missing path the drawing may well have."),
+    Rule("open-loop", "warning", "Amplifier with no feedback at all",
+         "Nothing leads from the output back to the - input, not even a capacitor: an "
+         "open-loop use (a comparator, or an amplifier with internal gain drawn like an "
+         "op-amp), not analysed as a gain stage.",
+         "An op-amp symbol with no feedback path is almost always a comparator use or a "
+         "fixed-gain part, not a missing resistor."),
+    Rule("comparator-symbol", "warning", "Comparator symbol wired as an op-amp",
+         "A part drawn with a comparator symbol (open-collector output) is wired with "
+         "negative DC feedback, as a follower or a gain stage: it is analysed as an op-amp, "
+         "and either the symbol is wrong or the circuit will not work as drawn.",
+         "Comparators are not compensated for negative feedback and their open-collector "
+         "outputs need a pull-up: the drawing and the part disagree."),
 )
 
 RULES: dict[str, Rule] = {rule.id: rule for rule in _RULES}

@@ -28,6 +28,10 @@ class Settings:
     command_line_parts: str | None = None
     #: fill missing Vos/Ib/Ios/TCVos from class values (opt-in; every such figure marked)
     estimate_missing: bool = False
+    #: resistive parts' values by reference, where the drawing's cannot be read
+    values: dict[str, str] = field(default_factory=dict)
+    #: house notations: (regular expression over a whole Value, what it means)
+    value_notations: tuple[tuple[str, str], ...] = ()
     #: which of the values above were set by the user (the rest are defaults)
     given: tuple[str, ...] = ()
 
@@ -57,6 +61,8 @@ class Settings:
             "parts_libraries": [{"origin": origin, "path": path}
                                 for origin, path in self.parts_libraries()],
             "estimate_missing": self.estimate_missing,
+            "values": dict(self.values),
+            "value_notations": [list(pair) for pair in self.value_notations],
             "defaults_used": [name for name in ("temp_range", "default_tolerance",
                                                 "default_budget") if name not in self.given],
         }

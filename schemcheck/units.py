@@ -1,8 +1,8 @@
 """Engineering values in the trade's notation -> SI floats, parsed once.
 
 Accepted: ``10k``, ``4k7`` (the prefix letter as the decimal mark; ``R`` for ohms),
-``100R``, ``1M``, ``2.2 kΩ``, ``0R``, ``2mV``, ``500uV``, ``250µV``, ``±50pA``,
-``1.5 nA``, ``5uV/°C``, ``1%``, ``100dB``, ``1e5``. ``M`` is mega and ``m`` milli; a bare
+``100R``, ``1M``, ``2.2 kΩ``, ``10 kΩ``, ``10Meg``, ``0R``, ``2mV``, ``500uV``, ``250µV``,
+``±50pA``, ``1.5 nA``, ``5uV/°C``, ``1%``, ``100dB``, ``1e5``. ``M`` is mega and ``m`` milli; a bare
 ``1m`` on a resistor is refused as ambiguous (``1M`` mega-ohm, ``1mR`` milli-ohm).
 """
 
@@ -85,16 +85,100 @@ def _describe(kind: str) -> str:
             "amp": "amperes (1.5nA, ±50pA)", "volt_per_deg": "volts per °C (5uV/°C)"}[kind]
 
 
-def parse_resistance(text: str, what: str = "resistance") -> float | None:
-    """Ohms from a resistor's Value; None for do-not-populate spellings (``DNP``, ``NC``).
-    ``0R`` / ``0`` is 0.0 (a short)."""
+#: Values that say a part is not fitted (first word, any case).
+NOT_FITTED = ("DNP", "DNF", "NC", "N/C", "NF", "N.F.", "NOFIT", "NO-FIT", "NP", "OPEN", "-",
+              "NOT-FITTED", "NOTFITTED")
+
+_OHM_UNIT = r"(?:Ω|[Oo]hms?|OHMS?)"
+_OHM_MULT = r"(?:Meg|MEG|meg|[fpnuµμmkKMGTRr])"
+_OHM_MULTIPLIERS = dict(PREFIXES, T=1e12, Meg=1e6, MEG=1e6, meg=1e6)
+#: ``4k7``, ``2R2``, ``R47``, ``4M7``, ``1G5`` (IEC 60062 RKM code: the letter is the mark)
+_OHM_RKM = re.compile(r"^(?P<head>\d*)(?P<mult>Meg|MEG|[RrkKmMGT])(?P<tail>\d+)\s*"
+                      r"(?P<unit>" + _OHM_UNIT + r")?(?P<rest>.*)$")
+_OHM_PLAIN = re.compile(r"^(?P<num>(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*"
+                        r"(?P<mult>" + _OHM_MULT + r")?\s*(?P<unit>" + _OHM_UNIT
+                        + r"|(?<=[fpnuµμmkKMGT])[Rr])?(?P<rest>.*)$")
+#: What may follow a resistance: tolerance, power, voltage and tempco ratings.
+_OHM_QUALIFIER = re.compile(
+    r"^[\s/,;]*(?:±?\s*\d+(?:\.\d+)?\s*%|\d+(?:\.\d+)?\s*[mk]?W|\d+/\d+\s*W|"
+    r"\d+(?:\.\d+)?\s*k?V|\d+\s*ppm(?:/°?[CK])?)(?=[\s/,;]|$)", re.I)
+#: Potentiometer tapers: letters (A audio, B linear, C reverse audio) and words.
+_TAPER = re.compile(r"^[\s/,;-]*(?:taper\s*)?(?P<taper>lin(?:ear)?|log(?:arithmic)?|audio|"
+                    r"rev(?:erse)?[\s-]?(?:log|audio)|anti-?log|[ABCabc])(?:\s*taper)?"
+                    r"(?=[\s/,;]|$)", re.I)
+_TAPER_FIRST = re.compile(r"^(?P<taper>[ABC])\s*(?=\d)")
+
+
+@dataclass(frozen=True, slots=True)
+class Resistance:
+    """A resistor's value: ohms (None: not fitted) and a potentiometer taper if given."""
+
+    ohms: float | None
+    taper: str = ""
+
+
+def read_resistance(text: str, what: str = "resistance", *, taper: bool = False
+                    ) -> Resistance:
+    """A resistance in any notation of the trade and of the editor's libraries.
+
+    ``10k``, ``10 kΩ``, ``2.2 k``, ``4k7``, ``R47``, ``100R``, ``0R``, ``10Meg``,
+    ``1G``, ``10 ohms``, with trailing tolerance, power or voltage ratings (``10k 1%``,
+    ``10k/0.1%``, ``10k 0.25W``); with ``taper`` a potentiometer's taper letter or word
+    (``100kA``, ``A100k``, ``10k lin``). ``M`` is mega and ``m`` milli: a bare ``1m`` is
+    refused as ambiguous (``1M`` or ``1Meg`` mega-ohm, ``1mR`` milli-ohm). Not-fitted
+    spellings (``DNP``, ``NC``, ``n.f.``) give ``ohms`` None.
+
+    Raises :class:`ValueFormatError` saying what was expected.
+    """
     raw = _clean(text)
-    first = raw.split()[0] if raw.split() else ""
-    if first.upper() in ("DNP", "NC", "N/C", "NF", "NOFIT", "DNF", "OPEN", "-"):
-        return None
-    # '10k 1%' and '4k7/0.1%' carry a tolerance after the value
-    value = re.split(r"[\s/,]+", raw, maxsplit=1)[0] if re.search(r"[\s/,]", raw) else raw
-    return parse_quantity(value, "ohm", what=what).value
+    words = raw.split()
+    if not words or words[0].upper() in NOT_FITTED:
+        if not words:
+            raise ValueFormatError(f"expected a resistance for {what}, found nothing")
+        return Resistance(None)
+    found_taper = ""
+    if taper:
+        first = _TAPER_FIRST.match(raw)
+        if first:
+            found_taper, raw = first.group("taper"), raw[first.end():]
+    match = _OHM_RKM.match(raw)
+    if match:
+        mult = match.group("mult")
+        number = float(f"{match.group('head') or '0'}.{match.group('tail')}")
+    else:
+        match = _OHM_PLAIN.match(raw)
+        if not match:
+            raise ValueFormatError(f"expected a resistance for {what} (like 10k, 4k7, 2.2 kΩ, "
+                                   f"10Meg{', 100kA' if taper else ''}), found {text!r}")
+        mult = match.group("mult") or ""
+        number = float(match.group("num"))
+    rest = match.group("rest")
+    while rest.strip(" /,;"):
+        qualifier = _OHM_QUALIFIER.match(rest)
+        if qualifier:
+            rest = rest[qualifier.end():]
+            continue
+        tapered = _TAPER.match(rest) if taper and not found_taper else None
+        if tapered:
+            found_taper, rest = tapered.group("taper"), rest[tapered.end():]
+            continue
+        raise ValueFormatError(f"expected a resistance for {what} (like 10k, 4k7, 2.2 kΩ, "
+                               f"10Meg{', 100kA' if taper else ''}), found {text!r}")
+    if mult == "m" and not match.group("unit"):
+        raise ValueFormatError(f"expected a resistance for {what}: {text!r} is ambiguous, "
+                               "milli-ohm or mega-ohm (write 1M or 1Meg for mega-ohm, 1mR for "
+                               "milli-ohm)")
+    scale = _OHM_MULTIPLIERS[mult]
+    value = number * scale if scale >= 1 else number / round(1 / scale)
+    if not math.isfinite(value):
+        raise ValueFormatError(f"expected a finite resistance for {what}, found {text!r}")
+    return Resistance(value, found_taper)
+
+
+def parse_resistance(text: str, what: str = "resistance") -> float | None:
+    """Ohms from a resistor's Value (:func:`read_resistance`); None for do-not-populate
+    spellings (``DNP``, ``NC``). ``0R`` / ``0`` is 0.0 (a short)."""
+    return read_resistance(text, what).ohms
 
 
 def parse_tolerance(text: str, what: str = "tolerance") -> float:

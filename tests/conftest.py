@@ -68,3 +68,13 @@ def corpus() -> Path:
     if CORPUS is None:
         pytest.skip("../shared/corpus is not present")
     return CORPUS
+
+
+def stages_as_data(result):
+    """``result`` (a DesignResult) with its stages and not-analysed entries in their JSON
+    form, for tests that read them by JSON key; findings stay objects."""
+    from schemcheck.report.json import to_data
+
+    result.stages = [to_data(s) for s in result.stages]
+    result.not_analysed = [to_data(n) for n in result.not_analysed]
+    return result

@@ -1,4 +1,5 @@
-"""Write the hand-made reader fixtures in ``fixtures/reader/``.
+"""Write the hand-made reader fixtures in ``fixtures/reader/`` and the DC network traps
+in ``fixtures/network/`` (drawn by :mod:`tests.network_sheets`).
 
 Run ``python -m tests.make_fixtures`` from the repository root after changing this
 file; ``tests/test_connectivity.py`` checks that the committed files are current. What
@@ -9,9 +10,11 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from .network_sheets import SHEETS
 from .synth import Sheet, _uuid
 
 OUT = Path(__file__).resolve().parents[1] / "fixtures" / "reader"
+NETWORK_OUT = Path(__file__).resolve().parents[1] / "fixtures" / "network"
 
 DUAL = "Amplifier_Operational:Generic_Dual"
 ORIENTATIONS = [  # (ref, unit, x, y, angle, mirror)
@@ -139,6 +142,9 @@ def main() -> None:
     hier.mkdir(exist_ok=True)
     (hier / "hier.kicad_sch").write_text(top.text(), encoding="utf-8")
     (hier / "channel.kicad_sch").write_text(child.text(), encoding="utf-8")
+    NETWORK_OUT.mkdir(parents=True, exist_ok=True)
+    for name, draw in SHEETS.items():
+        (NETWORK_OUT / f"{name}.kicad_sch").write_text(draw().text(), encoding="utf-8")
 
 
 if __name__ == "__main__":

@@ -108,6 +108,53 @@ LIBRARY: dict[str, str] = {
             _pin("power_in", -2.54, 7.62, 270, "VCC", "7", hidden=True, length=3.81),
             _pin("power_in", -2.54, -7.62, 90, "VEE", "4", hidden=True, length=3.81)]},
         description="Single operational amplifier, supply pins hidden", keywords="opamp"),
+    "Device:R_Potentiometer": _lib("Device:R_Potentiometer", {(1, 1): [
+        _pin("passive", 0, 3.81, 270, "1", "1", length=1.27),
+        _pin("passive", 2.54, 0, 180, "2", "2", length=1.27),
+        _pin("passive", 0, -3.81, 90, "3", "3", length=1.27)]},
+        reference="RV", description="Potentiometer"),
+    "Device:Q_NPN_BCE": _lib("Device:Q_NPN_BCE", {(1, 1): [
+        _pin("input", -5.08, 0, 0, "B", "1"), _pin("passive", 2.54, 5.08, 270, "C", "2"),
+        _pin("passive", 2.54, -5.08, 90, "E", "3")]},
+        reference="Q", description="NPN transistor, base/collector/emitter"),
+    "Connector:TestPoint": _lib("Connector:TestPoint", {(1, 1): [
+        _pin("passive", 0, 0, 90, "1", "1", length=0)]},
+        reference="TP", description="test point"),
+    "Connector:Conn_01x03": _lib("Connector:Conn_01x03", {
+        (1, 1): [_pin("passive", -5.08, 2.54, 0, "Pin_1", "1", length=3.81),
+                 _pin("passive", -5.08, 0, 0, "Pin_2", "2", length=3.81),
+                 _pin("passive", -5.08, -2.54, 0, "Pin_3", "3", length=3.81)]},
+        reference="J", description="Generic connector, single row, 01x03"),
+    # A resistor as another tool's library draws it: its own name, P$ pin names, no
+    # description.
+    "Invented_Passives:MF_RESISTOR_0402": _lib("Invented_Passives:MF_RESISTOR_0402", {
+        (1, 1): [_pin("passive", 0, 3.81, 270, "P$1", "P$1", length=1.27),
+                 _pin("passive", 0, -3.81, 90, "P$2", "P$2", length=1.27)]},
+        reference="R"),
+    "Invented_MCU:PORTCHIP": _lib("Invented_MCU:PORTCHIP", {(1, 1): [
+        _pin("bidirectional", 7.62, 0, 180, "PA0", "1"),
+        _pin("power_in", 0, 7.62, 270, "VDD", "2"),
+        _pin("power_in", 0, -7.62, 90, "VSS", "3")]},
+        reference="U", description="Microcontroller, invented, one port pin"),
+    "Comparator:Generic_Single": _lib("Comparator:Generic_Single", {(1, 1): [
+        _pin("input", -7.62, 2.54, 0, "+", "3"), _pin("input", -7.62, -2.54, 0, "-", "2"),
+        _pin("open_collector", 7.62, 0, 180, "~", "1"),
+        _pin("power_in", -2.54, 7.62, 270, "V+", "5", length=3.81),
+        _pin("power_in", -2.54, -7.62, 90, "V-", "4", length=3.81)]},
+        description="Comparator, generic, open-collector output", keywords="comparator"),
+    "Analog_Switch:Generic_SPST": _lib("Analog_Switch:Generic_SPST", {(1, 1): [
+        _pin("passive", -5.08, 0, 0, "COM", "1"), _pin("passive", 5.08, 0, 180, "NO", "2"),
+        _pin("input", 0, -5.08, 90, "IN", "3"),
+        _pin("power_in", 0, 5.08, 270, "VDD", "4")]},
+        description="Analog switch, single pole single throw, generic",
+        keywords="analog switch"),
+    "Amplifier_Instrumentation:Generic_InAmp": _lib(
+        "Amplifier_Instrumentation:Generic_InAmp",
+        {(1, 1): _opamp_pins(("3", "2", "6")) + [
+            _pin("input", 2.54, -7.62, 90, "REF", "5", length=3.81),
+            _pin("power_in", -2.54, 7.62, 270, "V+", "7", length=3.81),
+            _pin("power_in", -2.54, -7.62, 90, "V-", "4", length=3.81)]},
+        description="Instrumentation amplifier, generic", keywords="instrumentation amplifier"),
     "power:GND": _power_symbol("GND"),
     "power:VCC": _power_symbol("VCC"),
     "power:VEE": _power_symbol("VEE"),
@@ -130,6 +177,19 @@ PIN_AT: dict[str, dict[str, tuple[float, float]]] = {
         "7": (-2.54, 7.62), "4": (-2.54, -7.62)},
     "Amplifier_Operational:Generic_HiddenSupply": {
         "3": (-7.62, 2.54), "2": (-7.62, -2.54), "6": (7.62, 0),
+        "7": (-2.54, 7.62), "4": (-2.54, -7.62)},
+    "Device:R_Potentiometer": {"1": (0, 3.81), "2": (2.54, 0), "3": (0, -3.81)},
+    "Device:Q_NPN_BCE": {"1": (-5.08, 0), "2": (2.54, 5.08), "3": (2.54, -5.08)},
+    "Connector:TestPoint": {"1": (0, 0)},
+    "Connector:Conn_01x03": {"1": (-5.08, 2.54), "2": (-5.08, 0), "3": (-5.08, -2.54)},
+    "Invented_Passives:MF_RESISTOR_0402": {"P$1": (0, 3.81), "P$2": (0, -3.81)},
+    "Invented_MCU:PORTCHIP": {"1": (7.62, 0), "2": (0, 7.62), "3": (0, -7.62)},
+    "Comparator:Generic_Single": {"3": (-7.62, 2.54), "2": (-7.62, -2.54), "1": (7.62, 0),
+                                  "5": (-2.54, 7.62), "4": (-2.54, -7.62)},
+    "Analog_Switch:Generic_SPST": {"1": (-5.08, 0), "2": (5.08, 0), "3": (0, -5.08),
+                                   "4": (0, 5.08)},
+    "Amplifier_Instrumentation:Generic_InAmp": {
+        "3": (-7.62, 2.54), "2": (-7.62, -2.54), "6": (7.62, 0), "5": (2.54, -7.62),
         "7": (-2.54, 7.62), "4": (-2.54, -7.62)},
     "power:GND": {"1": (0, 0)}, "power:VCC": {"1": (0, 0)}, "power:VEE": {"1": (0, 0)},
     "power:PWR_FLAG": {"1": (0, 0)},

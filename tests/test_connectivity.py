@@ -35,10 +35,13 @@ def hier():
 
 
 def test_fixtures_are_current(tmp_path, monkeypatch):
-    monkeypatch.setattr(make_fixtures, "OUT", tmp_path)
+    monkeypatch.setattr(make_fixtures, "OUT", tmp_path / "reader")
+    monkeypatch.setattr(make_fixtures, "NETWORK_OUT", tmp_path / "network")
     make_fixtures.main()
-    for made in tmp_path.rglob("*.kicad_sch"):
-        committed = READER / made.relative_to(tmp_path)
+    made_files = list(tmp_path.rglob("*.kicad_sch"))
+    assert {p.parent.name for p in made_files} >= {"reader", "network"}
+    for made in made_files:
+        committed = FIXTURES / made.relative_to(tmp_path)
         assert committed.read_text(encoding="utf-8") == made.read_text(encoding="utf-8"), (
             f"{committed} is stale: run python -m tests.make_fixtures")
 

@@ -26,6 +26,8 @@ def _ohms(value: float) -> str:
 
 
 def _values(ideal: float) -> str:
+    if ideal <= 0:  # a follower: the - input sees the output, 0 Ω
+        return "a wire, no resistor"
     return f"E96 {_ohms(nearest(ideal, 'E96'))}, E24 {_ohms(nearest(ideal, 'E24'))}"
 
 

@@ -162,7 +162,8 @@ def local_graph(sheet: SheetFile) -> _LocalGraph:
             unknown.append(symbol)
             continue
         for lib_pin in lib.pins:
-            if lib_pin.unit not in (0, symbol.unit) or lib_pin.body_style not in (0, symbol.body_style):
+            if (lib_pin.unit not in (0, symbol.unit)
+                    or lib_pin.body_style not in (0, symbol.body_style)):
                 continue
             pin = Pin(lib_pin.number, lib_pin.name, lib_pin.electrical_type,
                       lib_pin.unit, lib_pin.hidden)
@@ -248,8 +249,37 @@ def _reference(symbol: PlacedSymbol, inst: SheetInstance, design: Design,
     return symbol.properties.get("Reference", "?"), symbol.unit, None
 
 
+@dataclass(slots=True)
+class _Joining:
+    """The design-wide union-find over every instance's local groups, and what is
+    gathered on the way: name candidates, parts, pin nodes, warnings."""
+
+    uf: _UnionFind
+    names: dict[int, list[tuple[int, int, str]]] = field(default_factory=dict)
+    by_global_name: dict[str, int] = field(default_factory=dict)
+    warnings: list[str] = field(default_factory=list)
+    parts: list[Part] = field(default_factory=list)
+    nodes: list[tuple[int, Node]] = field(default_factory=list)
+
+    def name_candidate(self, gid: int, kind: str, depth: int, name: str) -> None:
+        """(priority, depth, name): the lowest tuple names the net."""
+        self.names.setdefault(gid, []).append((-_PRIORITY[kind], depth, name))
+
+    def join_global(self, gid: int, name: str) -> None:
+        other = self.by_global_name.setdefault(name, gid)
+        if other != gid:
+            self.uf.union(other, gid)
+
+    def join_local(self, local: dict[str, int], key: str, gid: int) -> None:
+        other = local.setdefault(key, gid)
+        if other != gid:
+            self.uf.union(other, gid)
+
+
 def build_netlist(design: Design) -> Netlist:
-    """Connect every sheet instance of ``design`` into one :class:`Netlist`."""
+    """Connect every sheet instance of ``design`` into one :class:`Netlist`, in steps:
+    the local groups of every sheet file, the sheet instances, then per instance its
+    labels, its sheet pins and its symbols' pins; last, the nets and their names."""
     root = design.sheets[design.root]
     graphs = {key: local_graph(sheet) for key, sheet in design.sheets.items()}
     insts = instances(design)
@@ -257,108 +287,126 @@ def build_netlist(design: Design) -> Netlist:
     for inst in insts:
         inst.offset = total
         total += graphs[inst.file].size
-    uf = _UnionFind(total)
-    names: dict[int, list[tuple[int, int, str]]] = {}  # global id -> (priority, depth, name)
-    by_global_name: dict[str, int] = {}
-    warnings: list[str] = []
-    parts: list[Part] = []
-    node_sets: dict[int, set[Node]] = {}
-    pending_nodes: list[tuple[int, Node]] = []
-
-    def name_candidate(gid: int, kind: str, depth: int, name: str) -> None:
-        names.setdefault(gid, []).append((-_PRIORITY[kind], depth, name))
-
-    def join_global(gid: int, name: str) -> None:
-        other = by_global_name.setdefault(name, gid)
-        if other != gid:
-            uf.union(other, gid)
-
+    joining = _Joining(_UnionFind(total))
     for inst in insts:
-        sheet = design.sheets[inst.file]
         graph = graphs[inst.file]
-        off = inst.offset
-        depth = inst.names.count("/") - 1
-        local_by_name: dict[str, int] = {}
-        for kind, name, group in graph.labels:
-            gid = off + group
-            if kind == "global_label":
-                join_global(gid, name)
-                name_candidate(gid, kind, depth, name)
-            elif kind == "label" or (kind == "hierarchical_label" and inst.parent is None):
-                other = local_by_name.setdefault(name, gid)
-                if other != gid:
-                    uf.union(other, gid)
-                name_candidate(gid, "label", depth, inst.names + name)
-            else:
-                name_candidate(gid, kind, depth, inst.names + name)
+        local_by_name = _join_labels(joining, inst, graph)
         if inst.parent is not None:
             parent = insts[inst.parent]
-            parent_graph = graphs[parent.file]
-            hier = {}
-            for kind, name, group in graph.labels:
-                if kind == "hierarchical_label":
-                    hier.setdefault(name, []).append(off + group)
-            for (sheet_index, pin_name), group in parent_graph.sheet_pins.items():
-                if sheet_index != inst.sheet_index:
-                    continue
-                targets = hier.get(pin_name)
-                if not targets:
-                    warnings.append(f"sheet pin {pin_name!r} of sheet {inst.names!r} has no "
-                                    "hierarchical label of that name inside the sheet")
-                    continue
-                for target in targets:
-                    uf.union(parent.offset + group, target)
-        for symbol in graph.unknown_symbols:
-            warnings.append(f"{sheet.path}: symbol {symbol.properties.get('Reference', '?')} "
-                            f"uses library symbol {symbol.lib_name or symbol.lib_id!r}, which is "
-                            "not in the file's lib_symbols: its pins are unknown")
-        done_parts: dict[int, Part] = {}
-        for placed in graph.pins:
-            symbol, lib = placed.symbol, placed.lib
-            gid = off + placed.group
-            if lib.is_power:
-                # KiCad: only a power-input pin of a power symbol is a power net driver
-                # (PWR_FLAG's power-output pin names nothing).
-                if placed.pin.electrical_type != "power_in":
-                    continue
-                value = symbol.properties.get("Value") or placed.pin.name
-                if lib.power_scope == "local":
-                    other = local_by_name.setdefault("\0power:" + value, gid)
-                    if other != gid:
-                        uf.union(other, gid)
-                    name_candidate(gid, "power", depth, inst.names + value)
-                else:
-                    join_global(gid, value)
-                    name_candidate(gid, "power", depth, value)
-                continue
-            if placed.pin.hidden and placed.pin.electrical_type == "power_in" and placed.pin.name:
-                join_global(gid, placed.pin.name)
-                name_candidate(gid, "power", depth, placed.pin.name)
-            key = id(symbol)
-            part = done_parts.get(key)
-            if part is None:
-                part = done_parts[key] = _make_part(symbol, lib, inst, design, root, graph)
-                if not part.ref.startswith("#"):
-                    parts.append(part)
-            if part.ref.startswith("#") or part.dnp:
-                continue
-            pending_nodes.append((gid, Node(part.ref, placed.pin.number)))
-        for symbol in graph.unknown_symbols:  # listed, with no pins
-            part = _make_part(symbol, None, inst, design, root, graph)
-            if not part.ref.startswith("#"):
-                parts.append(part)
+            _join_sheet_pins(joining, inst, graph, parent, graphs[parent.file])
+        _place_symbols(joining, design, root, inst, graph, local_by_name)
+    _check_duplicates(joining.parts, joining.warnings)
+    nets = _name_nets(joining)
+    parts = sorted(joining.parts, key=lambda p: (_natural(p.ref), p.unit, p.sheet))
+    files = tuple(sheet.path for sheet in design.sheets.values())
+    return Netlist(nets=tuple(nets), parts=tuple(parts), source=root.path, format="kicad_sch",
+                   version=str(root.version or ""), files=files,
+                   warnings=tuple(joining.warnings))
 
-    for gid, node in pending_nodes:
+
+def _join_labels(joining: _Joining, inst: SheetInstance, graph: _LocalGraph
+                 ) -> dict[str, int]:
+    """Global labels across the design, local labels (and a root sheet's hierarchical
+    labels) within the instance; every label a name candidate. Returns the instance's
+    local names (power symbols of local scope join them later)."""
+    off = inst.offset
+    depth = inst.names.count("/") - 1
+    local_by_name: dict[str, int] = {}
+    for kind, name, group in graph.labels:
+        gid = off + group
+        if kind == "global_label":
+            joining.join_global(gid, name)
+            joining.name_candidate(gid, kind, depth, name)
+        elif kind == "label" or (kind == "hierarchical_label" and inst.parent is None):
+            joining.join_local(local_by_name, name, gid)
+            joining.name_candidate(gid, "label", depth, inst.names + name)
+        else:
+            joining.name_candidate(gid, kind, depth, inst.names + name)
+    return local_by_name
+
+
+def _join_sheet_pins(joining: _Joining, inst: SheetInstance, graph: _LocalGraph,
+                     parent: SheetInstance, parent_graph: _LocalGraph) -> None:
+    """A hierarchical label joins the pin of the same name on the sheet symbol that
+    placed the instance."""
+    hier: dict[str, list[int]] = {}
+    for kind, name, group in graph.labels:
+        if kind == "hierarchical_label":
+            hier.setdefault(name, []).append(inst.offset + group)
+    for (sheet_index, pin_name), group in parent_graph.sheet_pins.items():
+        if sheet_index != inst.sheet_index:
+            continue
+        targets = hier.get(pin_name)
+        if not targets:
+            joining.warnings.append(f"sheet pin {pin_name!r} of sheet {inst.names!r} has no "
+                                    "hierarchical label of that name inside the sheet")
+            continue
+        for target in targets:
+            joining.uf.union(parent.offset + group, target)
+
+
+def _place_symbols(joining: _Joining, design: Design, root: SheetFile, inst: SheetInstance,
+                   graph: _LocalGraph, local_by_name: dict[str, int]) -> None:
+    """Power symbols name and join their nets; hidden power inputs join the net of their
+    name; every other symbol becomes a Part whose pins are nodes of their groups."""
+    sheet = design.sheets[inst.file]
+    off = inst.offset
+    depth = inst.names.count("/") - 1
+    for symbol in graph.unknown_symbols:
+        joining.warnings.append(
+            f"{sheet.path}: symbol {symbol.properties.get('Reference', '?')} uses library "
+            f"symbol {symbol.lib_name or symbol.lib_id!r}, which is not in the file's "
+            "lib_symbols: its pins are unknown")
+    done_parts: dict[int, Part] = {}
+    for placed in graph.pins:
+        symbol, lib = placed.symbol, placed.lib
+        gid = off + placed.group
+        if lib.is_power:
+            # KiCad: only a power-input pin of a power symbol is a power net driver
+            # (PWR_FLAG's power-output pin names nothing).
+            if placed.pin.electrical_type != "power_in":
+                continue
+            value = symbol.properties.get("Value") or placed.pin.name
+            if lib.power_scope == "local":
+                joining.join_local(local_by_name, "\0power:" + value, gid)
+                joining.name_candidate(gid, "power", depth, inst.names + value)
+            else:
+                joining.join_global(gid, value)
+                joining.name_candidate(gid, "power", depth, value)
+            continue
+        if placed.pin.hidden and placed.pin.electrical_type == "power_in" and placed.pin.name:
+            joining.join_global(gid, placed.pin.name)
+            joining.name_candidate(gid, "power", depth, placed.pin.name)
+        key = id(symbol)
+        part = done_parts.get(key)
+        if part is None:
+            part = done_parts[key] = _make_part(symbol, lib, inst, design, root, graph)
+            if not part.ref.startswith("#"):
+                joining.parts.append(part)
+        if part.ref.startswith("#") or part.dnp:
+            continue
+        joining.nodes.append((gid, Node(part.ref, placed.pin.number)))
+    for symbol in graph.unknown_symbols:  # listed, with no pins
+        part = _make_part(symbol, None, inst, design, root, graph)
+        if not part.ref.startswith("#"):
+            joining.parts.append(part)
+
+
+def _name_nets(joining: _Joining) -> list[Net]:
+    """One Net per joined group holding a pin, named by its best candidate (power, then
+    global label, label, hierarchical label; the shallowest sheet; then by text), or
+    ``unnamed-REF-PIN`` after its first node."""
+    uf = joining.uf
+    node_sets: dict[int, set[Node]] = {}
+    for gid, node in joining.nodes:
         node_sets.setdefault(uf.find(gid), set()).add(node)
     merged_names: dict[int, list[tuple[int, int, str]]] = {}
-    for gid, cands in names.items():
+    for gid, cands in joining.names.items():
         merged_names.setdefault(uf.find(gid), []).extend(cands)
-
-    _check_duplicates(parts, warnings)
     nets = []
     for root_id, nodes in node_sets.items():
         ordered = tuple(sorted(nodes, key=lambda n: (_natural(n.ref), _natural(n.pin))))
-        cands = merged_names.get(root_id)
+        cands = merged_names.get(root_id, [])
         if cands:
             best = min(cands)
             labels = tuple(sorted({c[2] for c in cands}))
@@ -369,10 +417,7 @@ def build_netlist(design: Design) -> Netlist:
             first = ordered[0]
             nets.append(Net(f"unnamed-{first.ref}-{first.pin}", ordered, False, False, ()))
     nets.sort(key=lambda n: _natural(n.name))
-    parts.sort(key=lambda p: (_natural(p.ref), p.unit, p.sheet))
-    files = tuple(sheet.path for sheet in design.sheets.values())
-    return Netlist(nets=tuple(nets), parts=tuple(parts), source=root.path, format="kicad_sch",
-                   version=str(root.version or ""), files=files, warnings=tuple(warnings))
+    return nets
 
 
 def _make_part(symbol: PlacedSymbol, lib: LibSymbol | None, inst: SheetInstance,

@@ -9,8 +9,16 @@ output, judged from pin names *and* electrical types *and* the part's descriptio
   (``V+``, ``VCC``, power types) are never inputs;
 * the output is the one pin of type output (or, where every pin is bidirectional, the
   one named ``OUT``);
-* comparators, transconductance amplifiers, instrumentation, fully differential and
-  variable-gain amplifiers are recognised as amplifiers but not analysed, and listed;
+* a feedback pin (``FB``, internally the output) is not an output; flag, status and
+  monitor outputs beside the amplifier's own output do not count; two outputs make a
+  fully differential amplifier only when they are named as a pair (``OUT+``/``OUT-``);
+* comparators, transconductance, instrumentation, difference, current-sense, buffer,
+  fully differential, variable-gain, gain-control (VCA), isolation and fixed-gain
+  amplifiers are recognised as amplifiers but not analysed, and listed: by the editor's
+  library they come from (``Comparator``, ``Amplifier_Instrumentation``,
+  ``Amplifier_Difference``, ``Amplifier_Current``, ``Amplifier_Buffer``) or by words of
+  their description, keywords, value or symbol name (project libraries often have no
+  description);
 * battery cells, diode bridges and other parts with ``+``/``-`` pins have no output and
   are not amplifiers at all.
 
@@ -32,17 +40,41 @@ _OUT = re.compile(r"^(?:OUT|VOUT|V_?O|OUTPUT)(\d*)$", re.I)
 _SUPPLY = re.compile(r"^(?:V\+|V-|\+V|-V|VCC|VEE|VDD|VSS|V_?\{?(?:CC|EE|DD|SS|S\+|S-)\}?|"
                      r"VS\+|VS-|\+VS|-VS|GND|AGND|V\+S|V-S|VPOS|VNEG)$", re.I)
 _INPUT_TYPES = {"input", "passive", "bidirectional", "tri_state", "unspecified"}
+#: Libraries of the editor whose parts look like op-amps but are not (by library nickname).
+_NOT_OPAMP_LIBRARIES = {
+    "comparator": "comparator",
+    "amplifier_instrumentation": "instrumentation amplifier",
+    "amplifier_difference": "difference amplifier",
+    "amplifier_current": "current-sense amplifier",
+    "amplifier_buffer": "buffer amplifier",
+}
+#: Searched in the description, keywords, value and symbol name (underscores as spaces).
 _NOT_ANALYSED = [
     (re.compile(r"comparator", re.I), "comparator"),
     (re.compile(r"transconductance|\bOTA\b", re.I), "transconductance amplifier"),
-    (re.compile(r"instrumentation", re.I), "instrumentation amplifier"),
+    (re.compile(r"instrumentation|\bin-?amp\b", re.I), "instrumentation amplifier"),
     (re.compile(r"fully[- ]differential|differential (?:amplifier|ADC driver)|\bFDA\b", re.I),
      "fully differential amplifier"),
     (re.compile(r"variable[- ]gain|\bVGA\b|programmable[- ]gain|\bPGA\b", re.I),
      "variable-gain amplifier"),
-    (re.compile(r"current[- ]sense", re.I), "current-sense amplifier"),
+    (re.compile(r"current[- ]?sens(?:e|or|ing)|current[- ]?shunt|shunt[- ]?monitor|"
+                r"current[- ]?monitor", re.I), "current-sense amplifier"),
+    (re.compile(r"difference amplifier", re.I), "difference amplifier"),
+    (re.compile(r"\bVCA\b|voltage[- ]controlled amplifier|gain[- ]control|"
+                r"dynamic range processor", re.I), "gain-control amplifier (VCA)"),
+    (re.compile(r"fixed[- ]gain|preamplifier", re.I), "fixed-gain amplifier"),
+    (re.compile(r"\bbuffer\b", re.I), "buffer amplifier"),
+    (re.compile(r"isolat(?:ion|ed) amplifier", re.I), "isolation amplifier"),
+    (re.compile(r"line (?:driver|receiver)", re.I), "line driver"),
 ]
+#: A transimpedance-only part (current in, voltage out), unless it says it is an op-amp.
+_TRANSIMPEDANCE = re.compile(r"transimpedance amplifier", re.I)
+_OPAMP_NAMED = re.compile(r"op[- ]?amp|operational amplifier", re.I)
 _OPAMP_WORDS = re.compile(r"op[- ]?amp|operational amplifier|amplifier", re.I)
+#: A feedback pin: internally the output (``FB``), not a second output.
+_FEEDBACK = re.compile(r"^(?:FB|V_?FB|FEEDBACK)$", re.I)
+#: The amplifier's own output, among typed outputs that also carry flags and monitors.
+_MAIN_OUT = re.compile(r"^(?:~|OUT|VOUT|V_?O|OUTPUT)?\d*$", re.I)
 
 
 @dataclass(frozen=True, slots=True)
@@ -54,6 +86,7 @@ class OpampUnit:
     minus: Pin
     out: Pin
     channel: int | None = None  # several amplifiers drawn in one unit
+    feedback: Pin | None = None  # a feedback pin, internally the output
 
     @property
     def key(self) -> tuple[str, int, int | None]:
@@ -85,6 +118,9 @@ class SkippedAmplifier:
 
     part: Part
     reason: str
+    #: a comparator's pins as an op-amp unit, where it has one of each (it is analysed as
+    #: an op-amp when it is wired with negative DC feedback)
+    unit: OpampUnit | None = None
 
 
 def _forced(part: Part) -> bool | None:
@@ -113,13 +149,44 @@ _OUT_NAMED = re.compile(r"^(?:OUT|VOUT|V_?O|OUTPUT)(?:\d*|[+-]|[PMN])$", re.I)
 
 def _outputs(pins: tuple[Pin, ...]) -> list[Pin]:
     """Output pins: typed outputs (open-collector ones included, as comparators have),
-    or, where no pin is typed output, pins named like one (converted libraries)."""
+    or, where no pin is typed output, pins named like one (converted libraries). A
+    feedback pin is not an output; where a flag, status or monitor output sits beside
+    the amplifier's own output, only the own output (``OUT``, ``~``) counts."""
     typed = [p for p in pins if p.electrical_type in ("output", "open_collector",
-                                                      "open_emitter", "tri_state")]
-    if typed:
-        return typed
-    return [p for p in pins if not _is_supply(p) and p.electrical_type != "input"
-            and _OUT_NAMED.match(p.name.strip())]
+                                                      "open_emitter", "tri_state")
+             and not _FEEDBACK.match(p.name.strip())]
+    if not typed:
+        return [p for p in pins if not _is_supply(p) and p.electrical_type != "input"
+                and _OUT_NAMED.match(p.name.strip())]
+    main = [p for p in typed if _MAIN_OUT.match(p.name.strip())]
+    if main and len(main) < len(typed) and not _paired(typed):
+        return main
+    return typed
+
+
+def _feedback_pin(pins: tuple[Pin, ...]) -> Pin | None:
+    found = [p for p in pins if _FEEDBACK.match(p.name.strip())]
+    return found[0] if len(found) == 1 else None
+
+
+def _paired(outs: list[Pin]) -> bool:
+    """Two outputs named as a differential pair: ``+``/``-``, ``OUT+``/``OUT-``,
+    ``OUTP``/``OUTN``, ``+OUT``/``-OUT``, ``O``/``~{O}`` (overbar)."""
+    if len(outs) != 2:
+        return False
+    a, b = (re.sub(r"^[+-]|[+-]$|(?<=\w)[PN]$", "#", p.name.strip().upper()) for p in outs)
+    if a == b and "#" in a and outs[0].name.strip() != outs[1].name.strip():
+        return True
+    bare = [re.sub(r"^~\{(.*)\}$", r"\1", p.name.strip()) for p in outs]
+    return bare[0] == bare[1] and outs[0].name.strip() != outs[1].name.strip()
+
+
+def output_pins(part: Part) -> list[Pin]:
+    """The output pins of an amplifier (as :func:`recognise` finds them)."""
+    channels = _channels(part.pins)
+    if channels:
+        return [out for _, _, _, out in channels]
+    return _outputs(part.pins)
 
 
 def _channels(pins: tuple[Pin, ...]) -> list[tuple[int, Pin, Pin, Pin]]:
@@ -174,7 +241,8 @@ def recognise(parts: tuple[Part, ...] | list[Part]
         plus = _inputs(part.pins, _PLUS)
         minus = _inputs(part.pins, _MINUS)
         outs = _outputs(part.pins)
-        text = " ".join((part.description, part.keywords, part.lib_id))
+        name = part.lib_id.rpartition(":")[2].replace("_", " ")
+        text = " ".join((part.description, part.keywords, part.lib_id, part.value, name))
         channels = _channels(part.pins)
         if not ((plus and minus) or channels):
             if forced:
@@ -185,13 +253,19 @@ def recognise(parts: tuple[Part, ...] | list[Part]
             continue  # +/- pins but nothing amplifies: a cell, a bridge, a connector
         reason = _skip_reason(part, text, forced)
         if reason is None and not channels and len(plus) == len(minus) == 1 and len(outs) == 2:
-            reason = "fully differential amplifier (two outputs)"
+            reason = ("fully differential amplifier (two outputs)" if _paired(outs) else
+                      "1 non-inverting and 1 inverting input with 2 outputs: not a simple "
+                      "op-amp")
+        feedback = _feedback_pin(part.pins)
         if reason is not None:
-            skipped.append(SkippedAmplifier(part, reason))
+            single = (OpampUnit(part, plus[0], minus[0], outs[0])
+                      if reason.startswith("comparator") and not channels
+                      and len(plus) == len(minus) == len(outs) == 1 else None)
+            skipped.append(SkippedAmplifier(part, reason, single))
         elif channels:
             units.extend(OpampUnit(part, p, m, o, n) for n, p, m, o in channels)
         elif len(plus) == len(minus) == len(outs) == 1:
-            units.append(OpampUnit(part, plus[0], minus[0], outs[0]))
+            units.append(OpampUnit(part, plus[0], minus[0], outs[0], feedback=feedback))
         elif len(plus) == len(minus) == len(outs) > 1:
             for n, (p, m, o) in enumerate(_pair_by_number(plus, minus, outs), start=1):
                 units.append(OpampUnit(part, p, m, o, n))
@@ -205,12 +279,15 @@ def recognise(parts: tuple[Part, ...] | list[Part]
 def _skip_reason(part: Part, text: str, forced: bool | None) -> str | None:
     if forced:
         return None
-    if part.lib_id.lower().startswith("comparator:"):
-        return "comparator"
+    library = part.lib_id.partition(":")[0].lower() if ":" in part.lib_id else ""
+    if library in _NOT_OPAMP_LIBRARIES:
+        return _NOT_OPAMP_LIBRARIES[library]
     if any(p.electrical_type == "open_collector" or p.electrical_type == "open_emitter"
            for p in part.pins):
         return "comparator (open-collector output)"
     for pattern, reason in _NOT_ANALYSED:
         if pattern.search(text):
             return reason
+    if _TRANSIMPEDANCE.search(text) and not _OPAMP_NAMED.search(part.description):
+        return "transimpedance amplifier"
     return None

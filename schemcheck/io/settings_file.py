@@ -10,6 +10,11 @@
     seed = 1
     [source_resistance]               # nets driven from outside the design
     BRIDGE = "350"
+    [values]                          # values the drawing gives in a form not read
+    R13 = "1M"
+    [[value_notation]]                # house notations, tried where a Value is not read
+    match = '^t(.+)$'                 # a regular expression over the whole Value
+    value = '\1'                      # what it means ('t2k' is a 2 kΩ trimmer)
 
 Unknown keys are an error that names the key. Command-line options override the file.
 """
@@ -17,6 +22,7 @@ Unknown keys are an error that names the key. Command-line options override the 
 from __future__ import annotations
 
 import os
+import re
 import tomllib
 from dataclasses import replace
 from typing import Any
@@ -24,12 +30,14 @@ from typing import Any
 from schemcheck.rules import RULES
 from schemcheck.errors import ParseError
 from schemcheck.settings import Settings
-from schemcheck.units import ValueFormatError, parse_quantity, parse_resistance, parse_tolerance
+from schemcheck.units import (ValueFormatError, parse_quantity, parse_resistance,
+                              parse_tolerance, read_resistance)
 from schemcheck.io.files import read_text
 
 SETTINGS_NAME = "schemcheck.toml"
 _KEYS = ("temperature_range", "default_budget", "default_tolerance", "parts_library",
-         "rules_off", "monte_carlo_samples", "seed", "source_resistance", "estimate_missing")
+         "rules_off", "monte_carlo_samples", "seed", "source_resistance", "estimate_missing",
+         "values", "value_notation")
 
 
 def find_settings(design_root: str) -> str | None:
@@ -85,6 +93,10 @@ def apply_settings(data: dict[str, Any], path: str, base: Settings) -> Settings:
                     raise bad("source_resistance", "resistances in ohms")
                 resistances[str(net)] = ohms
             changes["source_resistance"] = resistances
+        if "values" in data:
+            changes["values"] = _values(data["values"], bad)
+        if "value_notation" in data:
+            changes["value_notations"] = _notations(data["value_notation"], bad)
     except ValueFormatError as error:
         raise ParseError(str(error), file=path) from None
     if "parts_library" in data:
@@ -111,3 +123,28 @@ def apply_settings(data: dict[str, Any], path: str, base: Settings) -> Settings:
             raise bad("seed", "a whole number")
         changes["seed"] = data["seed"]
     return replace(base, **changes, given=tuple(sorted(given)))
+
+
+def _values(table: Any, bad: Any) -> dict[str, str]:
+    if not isinstance(table, dict) or not all(isinstance(v, str) for v in table.values()):
+        raise bad("values", 'a table of REFERENCE = "value" (like R13 = "1M")')
+    for ref, text in table.items():
+        read_resistance(text, f"values.{ref}", taper=True)
+    return {str(ref): text for ref, text in table.items()}
+
+
+def _notations(items: Any, bad: Any) -> tuple[tuple[str, str], ...]:
+    expected = "an array of tables with 'match' (a regular expression) and 'value'"
+    if not isinstance(items, list):
+        raise bad("value_notation", expected)
+    out = []
+    for item in items:
+        if (not isinstance(item, dict) or set(item) != {"match", "value"}
+                or not all(isinstance(v, str) for v in item.values())):
+            raise bad("value_notation", expected)
+        try:
+            re.compile(item["match"])
+        except re.error as error:
+            raise bad("value_notation", f"a valid regular expression ({error})") from None
+        out.append((item["match"], item["value"]))
+    return tuple(out)

@@ -84,6 +84,14 @@ def stage_details(s: dict[str, Any], span: tuple[float, float] | None) -> list[t
     """(label, text) lines explaining one stage; empty ones left out."""
     own_known = (s.get("split") or {}).get("vos_v") is not None
     lines = [("split", sl.split(s)), ("fed by", sl.chain(s))]
+    gains = s.get("noise_gain_range")
+    if gains:
+        where = f"; budget at {s['budget_at']}" if s.get("budget_at") else ""
+        lines.append(("potentiometers", f"noise gain {gains[0]:.4g} to {gains[1]:.4g} over "
+                                         f"their travel{where}"))
+    if s.get("excludes"):
+        lines.append(("excludes", f"{', '.join(s['excludes'])} (not analysed, feeding this "
+                                  "stage): the totals leave their error out"))
     if own_known:
         lines.append(("values", sl.values(s)))
     else:
