@@ -15,12 +15,14 @@ from schemcheck.engine.budget import monte_carlo, stage_budget
 from schemcheck.checks.bias_resistor import compensation_resistor
 from schemcheck.checks.context import StageContext
 from schemcheck.checks.parameters import missing_by_part
-from schemcheck.engine import split
+from schemcheck.engine import split, sweep
+from schemcheck.engine.chain import driven_by
+from schemcheck.engine.histogram import Binned
 from schemcheck.engine.dcerror import solve
 from schemcheck.model import Finding, Netlist
 from schemcheck.results import (
-    Compensation, Contributor, DesignResult, ErrorSplit, MissingPart, NotAnalysed, ParamsUsed,
-    PartRequirements, Sensitivity, StageResult, Upstream,
+    Compensation, Contributor, DesignResult, ErrorSplit, Histogram, MissingPart, NotAnalysed,
+    ParamsUsed, PartRequirements, Sensitivity, StageResult, TemperatureCurve, Upstream,
 )
 from schemcheck.engine.network import build_network
 from schemcheck.engine.params import OpampParams, ParameterError, resolve
@@ -74,8 +76,9 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     solution = solve(network)
     budgets = [stage_budget(solution, k, params, settings.temp_range)
                for k in range(len(network.opamps))]
+    histograms: dict[int, Binned] | None = {} if settings.charts else None
     mc = monte_carlo(network, solution, params, settings.temp_range, settings.mc_samples,
-                     settings.seed) if settings.mc_samples > 0 else {}
+                     settings.seed, histograms=histograms) if settings.mc_samples > 0 else {}
     limits = [_budget_limit(op.unit.part, settings, problems) for op in network.opamps]
     ctx = StageContext(network, solution, params, budgets, limits, settings.temp_range)
     findings: list[Finding] = []
@@ -90,6 +93,7 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     result.findings = [replace(f, file=sheet_file.get((f.ref, f.unit)) or netlist.source)
                        for f in findings if f.rule not in settings.disabled_rules]
     result.stages = [_stage_result(ctx, mc, k) for k in range(len(network.opamps))]
+    _chain_and_charts(ctx, mc, histograms, result.stages)
     result.assumptions = design_assumptions(network, netlist.parts, params,
                                             {s.part.ref for s in skipped}, problems)
     result.missing_parameters = [
@@ -216,3 +220,30 @@ def _stage_result(ctx: StageContext, mc: dict[int, float | None], k: int) -> Sta
         compensation=_compensation(ctx, k, r_plus, r_minus),
         requirements=_requirements(ctx, k),
     )
+
+
+def _chain_and_charts(ctx: StageContext, mc: dict[int, float | None],
+                      histograms: dict[int, Binned] | None, stages: list[StageResult]) -> None:
+    """Each stage's feeding stages; with ``histograms`` (charts asked for) its error over
+    the temperature range and its Monte Carlo histogram."""
+    names = [op.unit.name for op in ctx.network.opamps]
+    for stage, feeders in zip(stages, driven_by(ctx.network)):
+        stage.driven_by = [names[j] for j in feeders]
+    if histograms is None:
+        return
+    temps = sweep.sweep_temperatures(ctx.temp_range, ctx.params)
+    for k, stage in enumerate(stages):
+        curve = sweep.stage_sweep(ctx.solution, k, ctx.params, ctx.temp_range, temps)
+        bound = mc.get(k)
+        at = (sweep.monte_carlo_temperature(ctx.solution, k, ctx.params, ctx.temp_range)
+              if bound is not None else None)
+        if curve is not None:
+            scaled = sweep.scaled_bound(bound, at, curve) if at is not None and bound else None
+            stage.over_temperature = TemperatureCurve(
+                list(curve.temps_c), list(curve.worst_case_v), list(curve.rss_v), scaled,
+                at if scaled is not None else None,
+                sweep.MC_RSS_SCALED if scaled is not None else None)
+        binned = histograms.get(k)
+        if binned is not None:
+            stage.histogram = Histogram(list(binned.edges), list(binned.counts), binned.samples,
+                                        bound, at)

@@ -21,6 +21,8 @@ class Settings:
     source_resistance: dict[str, float] = field(default_factory=dict)  # net -> ohms
     disabled_rules: tuple[str, ...] = ()
     parts_library: str | None = None
+    #: keep the figures the HTML report draws (error over temperature, Monte Carlo histogram)
+    charts: bool = False
     #: which of the values above were set by the user (the rest are defaults)
     given: tuple[str, ...] = ()
 
@@ -36,4 +38,5 @@ class Settings:
             "parts_library": self.parts_library,
             "defaults_used": [name for name in ("temp_range", "default_tolerance",
                                                 "default_budget") if name not in self.given],
+            **({"charts": True} if self.charts else {}),
         }
