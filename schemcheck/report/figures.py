@@ -401,10 +401,11 @@ def chain_view(stages: list[Stage], design: int) -> str:
                 end = (xb, yb + box_h / 2) if forward else (xb + box_w / 2, yb + box_h)
                 arrow_id = f"arrow-{design}-{slug(a)}-{slug(b)}"
                 keep.add(arrow_id)
-                ax.annotate("", xy=end, xytext=start, gid=arrow_id, arrowprops={
+                arrow = ax.annotate("", xy=end, xytext=start, arrowprops={
                     "arrowstyle": "-|>,head_length=0.5,head_width=0.25", "color": INK,
                     "linewidth": 1.2, "shrinkA": 1, "shrinkB": 1,
                     "connectionstyle": "arc3,rad=0.0" if forward else "arc3,rad=-0.35"})
+                arrow.arrow_patch.set_gid(arrow_id)
                 gain = gains.get((a, b))
                 if gain is not None:
                     ax.text((start[0] + end[0]) / 2, (start[1] + end[1]) / 2 + 0.09,
