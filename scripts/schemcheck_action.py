@@ -119,8 +119,8 @@ def via_service(design: str, url: str, token: str | None,
 
 def in_process(design: str, html: bool = False) -> tuple[dict, str, str | None]:
     try:
-        from schemcheck.run.batch import audit_paths
         from schemcheck.report.formats import render
+        from schemcheck.run.batch import audit_paths
     except ImportError:
         extra = ["--charts"] if html else []
         out = subprocess.run(["schemcheck", "audit", design, "--format", "json", *extra],

@@ -10,6 +10,7 @@ opened file fails and is recorded (``requests``) rather than fetched.
 from __future__ import annotations
 
 import base64
+import contextlib
 import json
 import shutil
 import subprocess
@@ -17,7 +18,7 @@ import tempfile
 import time
 import urllib.request
 from pathlib import Path
-from typing import Any
+from typing import Any, Self
 
 #: where Debian (``chromium``) and other distributions put the browser
 CANDIDATES = ("chromium", "chromium-browser", "google-chrome")
@@ -43,7 +44,7 @@ class Browser:
         self.events: list[dict[str, Any]] = []
         self._id = 0
 
-    def __enter__(self) -> Browser:
+    def __enter__(self) -> Self:
         import websocket
 
         self.proc = subprocess.Popen(
@@ -82,10 +83,11 @@ class Browser:
 
     def close(self) -> None:
         if self.ws is not None:
-            try:
+            import websocket
+
+            # the browser may close the socket before it answers
+            with contextlib.suppress(OSError, websocket.WebSocketException):
                 self.call("Browser.close")
-            except Exception:  # the browser may close the socket before answering
-                pass
             self.ws.close()
             self.ws = None
         if self.proc is not None:

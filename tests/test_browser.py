@@ -53,9 +53,9 @@ def test_demo_report_in_chromium(demo_page):
     with Browser(CHROMIUM) as browser:
         browser.open(path.as_uri())
         boxes = browser.evaluate(
-            "JSON.stringify(%s.map(id => { const e = document.getElementById(id);"
-            " if (!e) return [id, 0, 0]; const r = e.getBoundingClientRect();"
-            " return [id, r.width, r.height]; }))" % json.dumps(wanted))
+            f"JSON.stringify({json.dumps(wanted)}.map(id => {{"
+            " const e = document.getElementById(id); if (!e) return [id, 0, 0];"
+            " const r = e.getBoundingClientRect(); return [id, r.width, r.height]; }))")
         title = browser.evaluate("document.title")
         shot = browser.screenshot()
         pdf = browser.pdf()

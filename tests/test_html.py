@@ -224,7 +224,29 @@ def test_editor_action_open_from_the_service(client, tmp_path, monkeypatch):
         return response.status_code, response.get_data()
 
     monkeypatch.setattr(action, "request", request)
-    report, checklist, page = action.via_service(str(DEMO / "frontend.kicad_sch"),
+    _, checklist, page = action.via_service(str(DEMO / "frontend.kicad_sch"),
                                                  "http://service", None, html=True)
     assert checklist.startswith("# DC error checklist")
     assert page is not None and element_id("hist", 1, "U4/2") in page
+
+
+def test_loop_without_part_data_renders_its_arrows_and_says_what_is_missing():
+    from schemcheck.audit import audit_netlist
+    from schemcheck.report.json import to_data
+    from schemcheck.results import Report
+    from schemcheck.settings import Settings
+
+    from .circuits import circuit
+
+    # U1 sums IN and U2's output; U2 inverts U1's output: each feeds the other. No part has
+    # Vos, Ib or Ios, so no worst case is known.
+    design = audit_netlist(circuit("R1 IN s 10k", "R2 s o1 10k", "R3 o2 s 100k",
+                                   "U1 p=GND m=s out=o1", "R4 o1 m2 10k", "R5 m2 o2 10k",
+                                   "U2 p=GND m=m2 out=o2"), Settings(mc_samples=0, charts=True))
+    assert {s.id: s.driven_by for s in design.stages} == {"U1/1": ["U2/1"], "U2/1": ["U1/1"]}
+    report = to_data(Report(designs=[design]))
+    text = render(report, "html")
+    ids = set(_parsed(text).ids)
+    assert {"arrow-1-U1-1-U2-1", "arrow-1-U2-1-U1-1", "box-1-U1-1", "box-1-U2-1"} <= ids
+    assert "Dashed arrows close a loop" in text
+    assert "No stage's worst case is known" in text

@@ -319,6 +319,14 @@ def chain_edges(stages: list[Stage]) -> list[tuple[str, str]]:
     return edges
 
 
+def has_loops(stages: list[Stage]) -> bool:
+    """Some arrow of the chain view goes back (a stage fed from one it feeds)."""
+    edges = chain_edges(stages)
+    nodes = sorted({n for e in edges for n in e})
+    depth = _depths(nodes, edges)
+    return any(depth[b] <= depth[a] for a, b in edges)
+
+
 def _depths(nodes: list[str], edges: list[tuple[str, str]]) -> dict[str, int]:
     """Column of each node: the longest path reaching it (edges closing a loop ignored)."""
     feeders: dict[str, list[str]] = {n: [] for n in nodes}
@@ -341,6 +349,32 @@ def _depths(nodes: list[str], edges: list[tuple[str, str]]) -> dict[str, int]:
     return depth
 
 
+_GAP_LANE = 0.09  # inches between the lanes of arrows going back
+
+
+def _route(a: tuple[float, float], b: tuple[float, float], width: float, height: float,
+           gap: float, floor: float, lane: int) -> list[tuple[float, float]]:
+    """The points of the arrow from the box at ``a`` to the box at ``b`` (lower-left
+    corners, inches). Forward: right side to left side, straight. Within a column: out of
+    the right side, along the gap beside the column, into the right side. Going back:
+    out of the right side, down the gap to ``floor`` below every box, back along it, up
+    the gap before the target and into its left side. ``lane`` keeps arrows going back
+    apart."""
+    (xa, ya), (xb, yb) = a, b
+    out_a = (xa + width, ya + height / 2)
+    if xb > xa:
+        return [out_a, (xb, yb + height / 2)]
+    offset = (lane + 1) * _GAP_LANE
+    if xb == xa:
+        x = xa + width + min(offset, gap / 2)
+        return [out_a, (x, out_a[1]), (x, yb + height / 2), (xb + width, yb + height / 2)]
+    x_out = xa + width + min(offset, gap / 2)
+    x_in = xb - min(offset, gap / 2)
+    y = floor - lane * _GAP_LANE
+    return [out_a, (x_out, out_a[1]), (x_out, y), (x_in, y), (x_in, yb + height / 2),
+            (xb, yb + height / 2)]
+
+
 def chain_view(stages: list[Stage], design: int) -> str:
     """The stages that feed one another as boxes (own error at 25 °C, total over
     temperature) with an arrow, labelled with the gain, from each feeding stage."""
@@ -354,14 +388,20 @@ def chain_view(stages: list[Stage], design: int) -> str:
     for n in nodes:
         columns.setdefault(depth[n], []).append(n)
     box_w, box_h, pitch_x, pitch_y, margin = 2.15, 0.84, 3.05, 1.12, 0.12
-    width = margin * 2 + box_w + pitch_x * (max(columns) if columns else 0)
-    height = margin * 2 + box_h + pitch_y * (max(len(c) for c in columns.values()) - 1)
-    place = {n: (margin + pitch_x * d, height - margin - box_h - pitch_y * i)
+    back = [e for e in edges if depth[e[1]] <= depth[e[0]]]
+    left = margin + (0.45 if any(depth[b] == 0 for _, b in back) else 0.0)
+    width = left + margin + box_w + pitch_x * (max(columns) if columns else 0) + 0.3
+    below = (0.25 + _GAP_LANE * len(back)) if back else 0.0
+    height = (margin * 2 + box_h + pitch_y * (max(len(c) for c in columns.values()) - 1)
+              + below)
+    place = {n: (left + pitch_x * d, height - margin - box_h - pitch_y * i)
              for d, col in columns.items() for i, n in enumerate(col)}
+    floor = margin + below - 0.12
     keep: set[str] = set()
     with _LOCK:
         import matplotlib as mpl
-        from matplotlib.patches import FancyBboxPatch
+        from matplotlib.patches import FancyArrowPatch, FancyBboxPatch
+        from matplotlib.path import Path
 
         with mpl.rc_context(_STYLE):
             fig = _figure(width, height)
@@ -394,21 +434,25 @@ def chain_view(stages: list[Stage], design: int) -> str:
                         fontweight="bold", color=colour if verdict(s) == "FAIL" else INK)
             gains = {(u["id"], sl.stage_name(s)): u.get("gain") for s in stages
                      for u in s.get("upstream") or ()}
+            lane = 0
             for a, b in edges:
-                (xa, ya), (xb, yb) = place[a], place[b]
-                forward = xb > xa
-                start = (xa + box_w, ya + box_h / 2) if forward else (xa + box_w / 2, ya)
-                end = (xb, yb + box_h / 2) if forward else (xb + box_w / 2, yb + box_h)
+                forward = depth[b] > depth[a]
+                points = _route(place[a], place[b], box_w, box_h, pitch_x - box_w, floor,
+                                0 if forward else lane)
+                lane += 0 if forward else 1
                 arrow_id = f"arrow-{design}-{slug(a)}-{slug(b)}"
                 keep.add(arrow_id)
-                arrow = ax.annotate("", xy=end, xytext=start, arrowprops={
-                    "arrowstyle": "-|>,head_length=0.5,head_width=0.25", "color": INK,
-                    "linewidth": 1.2, "shrinkA": 1, "shrinkB": 1,
-                    "connectionstyle": "arc3,rad=0.0" if forward else "arc3,rad=-0.35"})
-                arrow.arrow_patch.set_gid(arrow_id)
+                ax.add_patch(FancyArrowPatch(
+                    path=Path(points), arrowstyle="-|>,head_length=5,head_width=2.6",
+                    color=INK if forward else "#52606D", linewidth=1.1,
+                    linestyle="-" if forward else (0, (4, 2)), gid=arrow_id))
                 gain = gains.get((a, b))
-                if gain is not None:
-                    ax.text((start[0] + end[0]) / 2, (start[1] + end[1]) / 2 + 0.09,
-                            f"×{sl.gain_text(gain)}", ha="center", va="bottom", fontsize=7.5,
-                            color="#52606D")
+                if gain is not None and forward:  # loops: the gains are listed per stage
+                    # in the gap before the box it enters (it may pass other boxes)
+                    (x0, y0), (x1, y1) = points[0], points[-1]
+                    x = max(x1 - 0.45, (x0 + x1) / 2)
+                    ax.text(x, y0 + (y1 - y0) * (x - x0) / (x1 - x0) + 0.04,
+                            f"×{sl.gain_text(gain)}", ha="center", va="bottom", fontsize=7,
+                            color="#52606D",
+                            bbox={"facecolor": "white", "edgecolor": "none", "pad": 0.6})
             return _svg(fig, f"chain{design}-", keep)
