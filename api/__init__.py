@@ -4,7 +4,8 @@ Settings (all optional): ``STORE_PATH`` (SQLite database, default the CLI's cach
 ``ALLOWED_FOLDERS`` (where JSON ``path`` submissions may point), ``MAX_CONTENT_LENGTH``
 (bytes, 413 beyond), ``AUDIT_TIMEOUT`` (seconds), ``MAX_CONCURRENT_AUDITS``, ``TOKEN``
 (bearer token required on every request when set), ``AUDIT_OVERRIDES`` (audit settings
-such as ``{"mc_samples": 2000, "parts_library": "..."}``), ``UPLOAD_FOLDER``.
+such as ``{"mc_samples": 2000, "parts_library": "..."}``; ``charts`` is on unless set to
+False), ``UPLOAD_FOLDER``.
 """
 
 from __future__ import annotations
@@ -36,6 +37,8 @@ def create_app(settings: dict[str, Any] | None = None) -> Flask:
     app = Flask(__name__)
     app.config.update(DEFAULTS)
     app.config.update(settings or {})
+    # every audit keeps what the html report draws, so report.html has its charts
+    app.config["AUDIT_OVERRIDES"] = {"charts": True, **app.config["AUDIT_OVERRIDES"]}
     if app.config["UPLOAD_FOLDER"] is None:
         app.config["UPLOAD_FOLDER"] = tempfile.mkdtemp(prefix="schemcheck-uploads-")
     app.extensions["schemcheck.store"] = AuditStore(app.config["STORE_PATH"])

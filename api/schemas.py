@@ -157,6 +157,30 @@ class MissingAcrossSchema(Schema):
     designs = fields.List(fields.String())
 
 
+class TemperatureCurveSchema(Schema):
+    """The stage's output error across the temperature range, volts at each temperature."""
+
+    temps_c = fields.List(fields.Float(allow_nan=False), required=True)
+    worst_case_v = fields.List(fields.Float(allow_nan=False), required=True)
+    rss_v = fields.List(fields.Float(allow_nan=False), required=True)
+    monte_carlo_v = fields.List(fields.Float(allow_nan=False), allow_none=True, metadata={
+        "description": "The Monte Carlo's 99.7 % bound, sampled at monte_carlo_temp_c and "
+                       "carried to each temperature by monte_carlo_method"})
+    monte_carlo_temp_c = _num()
+    monte_carlo_method = fields.String(allow_none=True, metadata={
+        "description": "rss-scaled: in proportion to the RSS at each temperature"})
+
+
+class HistogramSchema(Schema):
+    """The Monte Carlo's signed output errors binned (volts)."""
+
+    edges_v = fields.List(fields.Float(allow_nan=False), required=True)
+    counts = fields.List(fields.Integer(), required=True)
+    samples = fields.Integer()
+    bound_v = _num(metadata={"description": "The 99.7 % bound of the magnitude"})
+    temp_c = _num()
+
+
 class StageSchema(Schema):
     ref = fields.String(required=True)
     unit = fields.Integer(allow_none=True)
@@ -197,6 +221,12 @@ class StageSchema(Schema):
     excludes = fields.List(fields.String(), metadata={
         "description": "amplifiers that are not analysed whose outputs feed this stage: its "
                        "totals leave out their error"})
+    driven_by = fields.List(fields.String(), metadata={
+        "description": "Stages whose outputs reach this stage's inputs through resistors"})
+    over_temperature = fields.Nested(TemperatureCurveSchema, allow_none=True, metadata={
+        "description": "Present when charts were asked for"})
+    histogram = fields.Nested(HistogramSchema, allow_none=True, metadata={
+        "description": "Present when charts were asked for and the Monte Carlo ran"})
 
 
 class NotAnalysedSchema(Schema):

@@ -15,13 +15,15 @@ from schemcheck.engine.budget import monte_carlo, stage_budget
 from schemcheck.checks.bias_resistor import compensation_resistor
 from schemcheck.checks.context import StageContext
 from schemcheck.checks.parameters import missing_by_part
-from schemcheck.engine import split
+from schemcheck.engine import split, sweep
+from schemcheck.engine.chain import driven_by
+from schemcheck.engine.histogram import Binned
 from schemcheck.engine.dcerror import solve
 from schemcheck.model import Finding, Netlist
 from schemcheck.results import (
-    AmbiguousMatch, Compensation, Contributor, DesignResult, Estimate, LibraryMatch,
-    LibrarySource, ErrorSplit, MissingPart, NotAnalysed, ParamsUsed,
-    PartRequirements, Sensitivity, StageResult, Upstream,
+    AmbiguousMatch, Compensation, Contributor, DesignResult, ErrorSplit, Estimate, Histogram,
+    LibraryMatch, LibrarySource, MissingPart, NotAnalysed, ParamsUsed, PartRequirements,
+    Sensitivity, StageResult, TemperatureCurve, Upstream,
 )
 from schemcheck.circuit.values import ValueRules
 from schemcheck.engine.budget import StageBudget
@@ -92,8 +94,9 @@ def audit_netlist(netlist: Netlist, settings: Settings,
         solution = solve(network)  # the finite gains change the figures
     budgets = [stage_budget(solution, k, params, settings.temp_range)
                for k in range(len(network.opamps))]
+    histograms: dict[int, Binned] | None = {} if settings.charts else None
     mc = monte_carlo(network, solution, params, settings.temp_range, settings.mc_samples,
-                     settings.seed) if settings.mc_samples > 0 else {}
+                     settings.seed, histograms=histograms) if settings.mc_samples > 0 else {}
     ranges = travels(network, solution)
     budget_at: dict[int, str] = {}
     for k, travel in ranges.items():
@@ -130,6 +133,7 @@ def audit_netlist(netlist: Netlist, settings: Settings,
         stage.noise_gain_range = [span.noise_gain_low, span.noise_gain_high] if span else None
         stage.budget_at = budget_at.get(k)
         stage.excludes = excludes[k]
+    _chain_and_charts(ctx, mc, histograms, result.stages)
     result.assumptions = design_assumptions(network, netlist.parts, params,
                                             {s.part.ref for s in skipped}, problems)
     result.assumptions += _stage_notes(network, solution, ranges, budget_at, excludes, omitted)
@@ -361,3 +365,30 @@ def _stage_result(ctx: StageContext, mc: dict[int, float | None], k: int) -> Sta
         compensation=_compensation(ctx, k, r_plus, r_minus),
         requirements=_requirements(ctx, k),
     )
+
+
+def _chain_and_charts(ctx: StageContext, mc: dict[int, float | None],
+                      histograms: dict[int, Binned] | None, stages: list[StageResult]) -> None:
+    """Each stage's feeding stages; with ``histograms`` (charts asked for) its error over
+    the temperature range and its Monte Carlo histogram."""
+    names = [op.unit.name for op in ctx.network.opamps]
+    for stage, feeders in zip(stages, driven_by(ctx.network)):
+        stage.driven_by = [names[j] for j in feeders]
+    if histograms is None:
+        return
+    temps = sweep.sweep_temperatures(ctx.temp_range, ctx.params)
+    for k, stage in enumerate(stages):
+        curve = sweep.stage_sweep(ctx.solution, k, ctx.params, ctx.temp_range, temps)
+        bound = mc.get(k)
+        at = (sweep.monte_carlo_temperature(ctx.solution, k, ctx.params, ctx.temp_range)
+              if bound is not None else None)
+        if curve is not None:
+            scaled = sweep.scaled_bound(bound, at, curve) if at is not None and bound else None
+            stage.over_temperature = TemperatureCurve(
+                list(curve.temps_c), list(curve.worst_case_v), list(curve.rss_v), scaled,
+                at if scaled is not None else None,
+                sweep.MC_RSS_SCALED if scaled is not None else None)
+        binned = histograms.get(k)
+        if binned is not None:
+            stage.histogram = Histogram(list(binned.edges), list(binned.counts), binned.samples,
+                                        bound, at)

@@ -155,12 +155,16 @@ def _fail_on_option(command: Callable[..., Any]) -> Callable[..., Any]:
 @click.option("--estimate-missing", "estimate_missing", is_flag=True,
               help="Fill missing op-amp figures from class values by input type (orders of "
                    "magnitude; every such figure is marked 'estimate (class ...)').")
+@click.option("--charts", "charts", is_flag=True,
+              help="Keep what the html format draws (each stage's error over the temperature "
+                   "range, its Monte Carlo histogram) in the report; implied by --format "
+                   "html. For JSON reports merged into an html report later.")
 @_reports_errors
 def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None,
           parts: str | None, budget: str | None, samples: int | None, seed: int | None,
           settings_path: str | None, jobs: int | None, fail_on: str, no_cache: bool,
           cache_file: str | None, changed_since: str | None, staged: bool,
-          shard: Shard | None, estimate_missing: bool) -> None:
+          shard: Shard | None, estimate_missing: bool, charts: bool) -> None:
     """Audit the DC output error of every op-amp stage of one or many designs.
 
     PATHS are schematics, exported netlists, project folders or folders of many
@@ -180,6 +184,7 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
       schemcheck audit designs/ --jobs 4 --format markdown --output checklist.md
       schemcheck audit --changed-since origin/main --format sarif --output audit.sarif
       schemcheck audit designs/ --shard 2/4 --output shard2.json
+      schemcheck audit frontend.kicad_sch --format html --output frontend.html
     """
     from schemcheck.io.discover import find_designs
     from schemcheck.run.batch import Progress, audit_paths
@@ -199,6 +204,8 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
 
     overrides = options_to_overrides(temp=temp, parts=parts, budget=budget, samples=samples,
                                      seed=seed, estimate_missing=estimate_missing)
+    if charts or fmt == "html":
+        overrides["charts"] = True
     designs, missing = find_designs(list(paths))
     if changed_since is not None or staged:
         from schemcheck.run.changes import changed_files, touched_designs

@@ -225,6 +225,40 @@ class MissingAcross:
 
 #: Field metadata: a field with a default that a report read back must still have.
 REQUIRED = {"required": True}
+#: Field metadata: the key is left out of the JSON when the value is None.
+OMIT_WHEN_NONE = {"omit_when_none": True}
+
+
+@dataclass(slots=True)
+class TemperatureCurve:
+    """The stage's output error at each of ``temps_c`` (°C) across the range, volts.
+
+    ``worst_case_v`` and ``rss_v`` are computed at every temperature (the worst case meets
+    ``worst_case_over_temp_v`` at the worse end). The Monte Carlo is sampled at
+    ``monte_carlo_temp_c`` only; ``monte_carlo_v`` carries its 99.7 % bound to the other
+    temperatures by ``monte_carlo_method``: "rss-scaled", in proportion to the RSS (exact
+    for Gaussian sources; the resistors' spread kept in proportion). None without a Monte
+    Carlo."""
+
+    temps_c: list[float]
+    worst_case_v: list[float]
+    rss_v: list[float]
+    monte_carlo_v: list[float] | None = None
+    monte_carlo_temp_c: float | None = None
+    monte_carlo_method: str | None = None
+
+
+@dataclass(slots=True)
+class Histogram:
+    """The Monte Carlo's signed output errors, binned: ``counts[i]`` of the ``samples``
+    lie between ``edges_v[i]`` and ``edges_v[i + 1]`` (volts), sampled at ``temp_c`` (°C);
+    ``bound_v`` is the 99.7 % bound of their magnitude (the stage's ``monte_carlo_v``)."""
+
+    edges_v: list[float]
+    counts: list[int]
+    samples: int
+    bound_v: float | None
+    temp_c: float | None
 
 
 @dataclass(slots=True)
@@ -268,6 +302,11 @@ class StageResult:
     budget_at: str | None = None
     #: amplifiers not analysed whose outputs feed this stage: its totals leave them out
     excludes: list[str] = field(default_factory=list)
+    #: stages whose outputs reach this stage's inputs through resistors alone (chain view)
+    driven_by: list[str] = field(default_factory=list)
+    #: kept when charts are asked for (``--format html``, ``--charts``)
+    over_temperature: TemperatureCurve | None = field(default=None, metadata=OMIT_WHEN_NONE)
+    histogram: Histogram | None = field(default=None, metadata=OMIT_WHEN_NONE)
 
 
 @dataclass(slots=True)
@@ -313,10 +352,6 @@ class Shard:
     count: int  # N
     total: int  # designs in the whole batch
     positions: list[int] = field(default_factory=list)  # each design's place in the batch
-
-
-#: Field metadata: the key is left out of the JSON when the value is None.
-OMIT_WHEN_NONE = {"omit_when_none": True}
 
 
 @dataclass(slots=True)

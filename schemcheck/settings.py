@@ -32,6 +32,8 @@ class Settings:
     values: dict[str, str] = field(default_factory=dict)
     #: house notations: (regular expression over a whole Value, what it means)
     value_notations: tuple[tuple[str, str], ...] = ()
+    #: keep the figures the HTML report draws (error over temperature, Monte Carlo histogram)
+    charts: bool = False
     #: which of the values above were set by the user (the rest are defaults)
     given: tuple[str, ...] = ()
 
@@ -65,4 +67,5 @@ class Settings:
             "value_notations": [list(pair) for pair in self.value_notations],
             "defaults_used": [name for name in ("temp_range", "default_tolerance",
                                                 "default_budget") if name not in self.given],
+            **({"charts": True} if self.charts else {}),
         }

@@ -9,8 +9,11 @@ runs the audit in-process (if the schemcheck package is importable) or through t
 ``schemcheck`` command.
 
     python3 schemcheck_action.py board.kicad_sch [--url http://127.0.0.1:8765] [--token T]
+                                 [--open]
 
-Writes ``board.dc-checklist.md`` beside the design and prints a one-screen summary.
+Writes ``board.dc-checklist.md`` beside the design and prints a one-screen summary; with
+``--open`` also writes the HTML report ``board.dc-report.html`` and opens it in the
+default browser.
 Exit status: 0 no error finding, 1 error findings, 2 the audit could not be run.
 """
 
@@ -26,6 +29,8 @@ import tomllib
 import urllib.error
 import urllib.request
 import uuid
+import webbrowser
+from pathlib import Path
 
 _SHEETFILE = re.compile(rb'\(property\s+"Sheet ?file"\s+"((?:[^"\\]|\\.)*)"')
 
@@ -91,8 +96,10 @@ def request(url: str, token: str | None, data: bytes | None = None,
         return error.code, error.read()
 
 
-def via_service(design: str, url: str, token: str | None) -> tuple[dict, str]:
-    """(report, checklist) from the service; raises OSError when it does not answer."""
+def via_service(design: str, url: str, token: str | None,
+                html: bool = False) -> tuple[dict, str, str | None]:
+    """(report, checklist, HTML report or None) from the service; raises OSError when it
+    does not answer."""
     files = design_files(design)
     body, content_type = encode_multipart(files, os.path.dirname(os.path.abspath(design)))
     status, payload = request(f"{url}/v1/audits", token, body, content_type)
@@ -101,24 +108,33 @@ def via_service(design: str, url: str, token: str | None) -> tuple[dict, str]:
         raise RuntimeError(f"the service refused the design ({status} {answer.get('title')}): "
                            f"{answer.get('detail')}")
     _, checklist = request(f"{url}/v1/audits/{answer['id']}/checklist", token)
-    return answer["result"], checklist.decode("utf-8")
+    page = None
+    if html:
+        status, body = request(f"{url}/v1/audits/{answer['id']}/report.html", token)
+        if status != 200:
+            raise RuntimeError(f"the service gave no HTML report ({status})")
+        page = body.decode("utf-8")
+    return answer["result"], checklist.decode("utf-8"), page
 
 
-def in_process(design: str) -> tuple[dict, str]:
+def in_process(design: str, html: bool = False) -> tuple[dict, str, str | None]:
     try:
+        from schemcheck.report.formats import render
         from schemcheck.run.batch import audit_paths
-        from schemcheck.report.markdown import checklist
     except ImportError:
-        out = subprocess.run(["schemcheck", "audit", design, "--format", "json"],
+        extra = ["--charts"] if html else []
+        out = subprocess.run(["schemcheck", "audit", design, "--format", "json", *extra],
                              capture_output=True, text=True)
         if out.returncode == 2 or not out.stdout:
             raise RuntimeError(out.stderr.strip() or "schemcheck could not run")
         report = json.loads(out.stdout)
         md = subprocess.run(["schemcheck", "audit", design, "--format", "markdown"],
                             capture_output=True, text=True).stdout
-        return report, md
-    report = audit_paths([design], jobs=1)
-    return report, checklist(report)
+        page = subprocess.run(["schemcheck", "audit", design, "--format", "html"],
+                              capture_output=True, text=True, check=False).stdout if html else None
+        return report, md, page
+    report = audit_paths([design], jobs=1, overrides={"charts": True} if html else None)
+    return report, render(report, "markdown"), render(report, "html") if html else None
 
 
 def summary(report: dict) -> str:
@@ -142,13 +158,16 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("design")
     parser.add_argument("--url", default=os.environ.get("SCHEMCHECK_URL", "http://127.0.0.1:8765"))
     parser.add_argument("--token", default=os.environ.get("SCHEMCHECK_TOKEN"))
+    parser.add_argument("--open", dest="open_report", action="store_true",
+                        help="also write <design>.dc-report.html and open it in the browser")
     args = parser.parse_args(argv)
     try:
         try:
-            report, checklist = via_service(args.design, args.url.rstrip("/"), args.token)
+            report, checklist, page = via_service(args.design, args.url.rstrip("/"),
+                                                  args.token, args.open_report)
             where = "service"
         except (OSError, urllib.error.URLError):
-            report, checklist = in_process(args.design)
+            report, checklist, page = in_process(args.design, args.open_report)
             where = "in-process"
     except (RuntimeError, ValueError) as error:
         print(f"schemcheck: {error}", file=sys.stderr)
@@ -159,6 +178,12 @@ def main(argv: list[str] | None = None) -> int:
         handle.write(checklist)
     print(summary(report))
     print(f"checklist written to {target} ({where})")
+    if page is not None:
+        report_path = f"{stem}.dc-report.html"
+        with open(report_path, "w", encoding="utf-8") as handle:
+            handle.write(page)
+        print(f"report written to {report_path}")
+        webbrowser.open(Path(report_path).as_uri())
     errors = any(f["severity"] == "error" for d in report["designs"] for f in d["findings"])
     return 1 if errors else 0
 

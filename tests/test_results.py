@@ -31,6 +31,8 @@ PAIRS = [
     (results.Upstream, schemas.UpstreamSchema),
     (results.Compensation, schemas.CompensationSchema),
     (results.PartRequirements, schemas.PartRequirementsSchema),
+    (results.TemperatureCurve, schemas.TemperatureCurveSchema),
+    (results.Histogram, schemas.HistogramSchema),
     (results.MissingPart, schemas.MissingPartSchema),
     (results.MissingAcross, schemas.MissingAcrossSchema),
     (results.Estimate, schemas.EstimateSchema),

@@ -21,6 +21,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from schemcheck.engine.dcerror import Solution
+from schemcheck.engine.histogram import Binned, histogram
 from schemcheck.engine.network import Network
 from schemcheck.engine.params import AtTemperature, OpampParams, at_temperature
 
@@ -99,8 +100,10 @@ def total_at(solution: Solution, k: int, params: list[OpampParams], temp: float,
 
 def monte_carlo(network: Network, solution: Solution, params: list[OpampParams],
                 temp_range: tuple[float, float], samples: int, seed: int,
-                chunk_values: int = 4_000_000) -> dict[int, float | None]:
-    """99.7th-percentile output error of every solved op-amp.
+                chunk_values: int = 4_000_000,
+                histograms: dict[int, Binned] | None = None) -> dict[int, float | None]:
+    """99.7th-percentile output error of every solved op-amp (and, into ``histograms``
+    where given, its sampled output errors binned).
 
     Every network piece of one matrix size is sampled and solved together in one
     stacked ``numpy.linalg.solve`` (in chunks of about ``chunk_values`` matrix entries),
@@ -128,6 +131,8 @@ def monte_carlo(network: Network, solution: Solution, params: list[OpampParams],
                     result[k] = None
                 else:
                     result[k] = float(bounds[column])
+                    if histograms is not None:
+                        histograms[k] = histogram(errors[g][:, column])
     return result
 
 

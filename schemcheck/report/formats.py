@@ -48,6 +48,12 @@ def _sarif(report: dict[str, Any], base: str | None) -> str:
     return json.dumps(sarif(report, base), indent=2, ensure_ascii=False, allow_nan=False)
 
 
+def _html(report: dict[str, Any], base: str | None) -> str:
+    from schemcheck.report.html import html_report
+
+    return html_report(report)
+
+
 FORMATS: dict[str, OutputFormat] = {f.name: f for f in (
     OutputFormat("json", "json", "application/json", "the results model as JSON", _json),
     OutputFormat("text", "txt", "text/plain; charset=utf-8", "a table for a terminal", _text),
@@ -55,6 +61,8 @@ FORMATS: dict[str, OutputFormat] = {f.name: f for f in (
                  "the pull-request checklist", _markdown),
     OutputFormat("sarif", "sarif", "application/sarif+json",
                  "SARIF 2.1.0 for code-scanning tools", _sarif),
+    OutputFormat("html", "html", "text/html; charset=utf-8",
+                 "a self-contained page with charts, to look at or print", _html),
 )}
 
 BY_SUFFIX: dict[str, OutputFormat] = {f.suffix: f for f in FORMATS.values()}

@@ -14,8 +14,9 @@ from typing import Any
 
 from schemcheck.model import Finding
 from schemcheck.results import (
-    AmbiguousMatch, Compensation, Contributor, Estimate, LibraryMatch, LibrarySource, DesignResult, ErrorSplit, MissingAcross, MissingPart, NotAnalysed,
-    ParamsUsed, PartRequirements, Report, Sensitivity, Shard, StageResult, Tool, Upstream,
+    AmbiguousMatch, Compensation, Contributor, DesignResult, ErrorSplit, Estimate, Histogram,
+    LibraryMatch, LibrarySource, MissingAcross, MissingPart, NotAnalysed, ParamsUsed,
+    PartRequirements, Report, Sensitivity, Shard, StageResult, TemperatureCurve, Tool, Upstream,
 )
 
 
@@ -69,7 +70,9 @@ def stage_from_data(data: dict[str, Any]) -> StageResult:
         "split": lambda d: _build(ErrorSplit, d, {}),
         "upstream": lambda items: [_build(Upstream, u, {}) for u in items],
         "compensation": lambda d: _build(Compensation, d, {}),
-        "requirements": lambda d: _build(PartRequirements, d, {})})
+        "requirements": lambda d: _build(PartRequirements, d, {}),
+        "over_temperature": lambda d: _build(TemperatureCurve, d, {}),
+        "histogram": lambda d: _build(Histogram, d, {})})
 
 
 def design_from_data(data: dict[str, Any]) -> DesignResult:
