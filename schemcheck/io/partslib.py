@@ -21,12 +21,10 @@ value, case-insensitively, or by one of its aliases.
 from __future__ import annotations
 
 import os
-import tomllib
 from typing import Any
 
-from schemcheck.errors import ParseError
 from schemcheck.engine.params import ParameterError, from_library
-from schemcheck.io.files import read_text
+from schemcheck.io.files import read_text, toml_document, toml_error
 
 _ENTRY_KEYS = {"aliases", "input", "vos", "ib", "ios", "tcvos", "ib_hot", "ios_hot", "t_hot",
                "aol", "ib_either_sign", "description", "rule", "measured"}
@@ -36,31 +34,21 @@ def load_parts_library(path: str | os.PathLike[str]) -> dict[str, dict[str, Any]
     """The ``parts`` table of the library at ``path``, every entry checked."""
     name = os.fspath(path)
     text = read_text(name)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as error:
-        line, column = _toml_position(str(error))
-        raise ParseError(f"expected a TOML parts library: {error}", file=name, line=line,
-                         column=column) from None
+    data = toml_document(text, name, "a TOML parts library")
     parts = data.get("parts", {})
     if not isinstance(parts, dict):
-        raise ParseError("expected a [parts] table of entries", file=name)
+        raise toml_error("expected a [parts] table of entries", name, text, (), "parts")
     for entry_name, entry in parts.items():
         if not isinstance(entry, dict):
-            raise ParseError(f"expected [parts.\"{entry_name}\"] to be a table", file=name)
+            raise toml_error(f"expected [parts.\"{entry_name}\"] to be a table", name, text,
+                             ("parts",), entry_name)
         unknown = sorted(set(entry) - _ENTRY_KEYS)
         if unknown:
-            raise ParseError(f"parts.\"{entry_name}\": unknown key {unknown[0]!r} (expected one "
-                             f"of {', '.join(sorted(_ENTRY_KEYS))})", file=name)
+            raise toml_error(f"parts.\"{entry_name}\": unknown key {unknown[0]!r} (expected one "
+                             f"of {', '.join(sorted(_ENTRY_KEYS))})", name, text,
+                             ("parts", entry_name), unknown[0])
         try:
             from_library(entry_name, entry)
         except ParameterError as error:
-            raise ParseError(str(error), file=name) from None
+            raise toml_error(str(error), name, text, ("parts", entry_name), error.key) from None
     return parts
-
-
-def _toml_position(message: str) -> tuple[int | None, int | None]:
-    import re
-
-    match = re.search(r"line (\d+), column (\d+)", message)
-    return (int(match.group(1)), int(match.group(2))) if match else (None, None)
