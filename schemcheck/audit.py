@@ -6,8 +6,11 @@ caller does the I/O.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
+
+import numpy as np
 
 from schemcheck import checks
 from schemcheck.engine.budget import StageBudget, monte_carlo, stage_budget
@@ -34,12 +37,30 @@ class DesignAudit:
     not_analysed: list[dict[str, Any]] = field(default_factory=list)
     settings: dict[str, Any] = field(default_factory=dict)
     errors: list[str] = field(default_factory=list)
+    #: what the reader noticed (a reference used twice, a child sheet outside the root's
+    #: folder); the figures are computed all the same
+    warnings: list[str] = field(default_factory=list)
 
     def to_dict(self) -> dict[str, Any]:
         return {"file": self.file, "stages": self.stages,
                 "findings": [f.to_dict() for f in self.findings],
                 "assumptions": self.assumptions, "not_analysed": self.not_analysed,
-                "settings": self.settings, "errors": self.errors, "caution": CAUTION}
+                "settings": self.settings, "errors": self.errors, "warnings": self.warnings,
+                "caution": CAUTION}
+
+
+def _finite(value: Any, where: str, dropped: list[str]) -> Any:
+    """``value`` with every non-finite float replaced by None (JSON has no NaN or
+    Infinity, and such a figure means nothing); ``dropped`` names what was replaced."""
+    if isinstance(value, float) and not math.isfinite(value):
+        dropped.append(where)
+        return None
+    if isinstance(value, dict):
+        return {k: _finite(v, f"{where}.{k}" if where else str(k), dropped)
+                for k, v in value.items()}
+    if isinstance(value, list):
+        return [_finite(v, f"{where}[{i}]", dropped) for i, v in enumerate(value)]
+    return value
 
 
 def _budget_limit(netlist_part, settings: Settings, problems: list[str]) -> float | None:
@@ -58,7 +79,7 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     """Audit every op-amp stage of ``netlist``."""
     library = library or {}
     result = DesignAudit(file=netlist.source, settings=settings.describe(),
-                         errors=list(netlist.errors))
+                         errors=list(netlist.errors), warnings=list(netlist.warnings))
     units, skipped = recognise(netlist.parts)
     for s in skipped:
         result.not_analysed.append({"ref": s.part.ref, "unit": s.part.unit, "sheet": s.part.sheet,
@@ -81,11 +102,29 @@ def audit_netlist(netlist: Netlist, settings: Settings,
             p = OpampParams(source={"error": str(error)})
         params.append(p)
         op.aol = p.aol
-    solution = solve(network)
-    budgets = [stage_budget(solution, k, params, settings.temp_range)
-               for k in range(len(network.opamps))]
-    mc = monte_carlo(network, solution, params, settings.temp_range, settings.mc_samples,
-                     settings.seed) if settings.mc_samples > 0 else {}
+    # overflow and 0/0 give inf and nan, which are caught below: no warning about them
+    with np.errstate(all="ignore"):
+        solution = solve(network)
+        budgets = [stage_budget(solution, k, params, settings.temp_range)
+                   for k in range(len(network.opamps))]
+        mc = monte_carlo(network, solution, params, settings.temp_range, settings.mc_samples,
+                         settings.seed) if settings.mc_samples > 0 else {}
+    # a figure that overflowed is no figure: the checks and the report see None
+    overflowed: dict[int, list[str]] = {}
+    for k, budget in enumerate(budgets):
+        for name in ("worst_case_own_v", "worst_case_total_v", "rss_own_v", "rss_v",
+                     "worst_case_over_temp_v"):
+            value = getattr(budget, name)
+            if value is not None and not math.isfinite(value):
+                setattr(budget, name, None)
+                overflowed.setdefault(k, []).append(name)
+        if not all(math.isfinite(c["worst_case_v"]) for c in budget.contributors):
+            budget.contributors = []
+            overflowed.setdefault(k, []).append("contributors")
+    for k, value in mc.items():
+        if value is not None and not math.isfinite(value):
+            mc[k] = None
+            overflowed.setdefault(k, []).append("monte_carlo_v")
     limits = [_budget_limit(op.unit.part, settings, problems) for op in network.opamps]
     ctx = StageContext(network, solution, params, budgets, limits, settings.temp_range)
     findings: list[Finding] = []
@@ -99,8 +138,16 @@ def audit_netlist(netlist: Netlist, settings: Settings,
                   for op in network.opamps}
     result.findings = [replace(f, file=sheet_file.get((f.ref, f.unit)) or netlist.source)
                        for f in findings if f.rule not in settings.disabled_rules]
-    result.stages = [_stage_dict(network, solution, params, budgets, mc, limits, k)
-                     for k in range(len(network.opamps))]
+    result.stages = []
+    for k in range(len(network.opamps)):
+        dropped = overflowed.get(k, [])
+        result.stages.append(_finite(_stage_dict(network, solution, params, budgets, mc,
+                                                 limits, k), "", dropped))
+        if dropped:
+            part = network.opamps[k].unit.part
+            problems.append(f"{part.ref}: no finite value for {', '.join(dropped)} (the "
+                            "network is numerically singular or a parameter lies far out of "
+                            "range); reported as null")
     result.assumptions = _assumptions(network, solution, settings, params) + [
         f"problem: {p}" for p in problems]
     if skipped:

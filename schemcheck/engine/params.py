@@ -15,11 +15,12 @@ Temperature model (``at_temperature``):
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
 from schemcheck.model import Part
-from schemcheck.units import ValueFormatError, parse_gain, parse_quantity
+from schemcheck.units import HOTTEST_C, ValueFormatError, parse_gain, parse_quantity
 
 FET_INPUTS = ("jfet", "cmos", "fet", "mosfet")
 INPUT_TYPES = ("bipolar", "jfet", "cmos")
@@ -78,7 +79,10 @@ class OpampParams:
 
 
 class ParameterError(ValueFormatError):
-    """A parameter field or library entry could not be read."""
+    """A parameter field or library entry could not be read. ``key`` names the library
+    entry's key at fault, where known."""
+
+    key: str | None = None
 
 
 def _parse(name: str, text: str, where: str) -> tuple[float, bool]:
@@ -90,8 +94,40 @@ def _parse(name: str, text: str, where: str) -> tuple[float, bool]:
     return abs(quantity.value), quantity.either_sign
 
 
+def _library_text(entry_name: str, key: str, raw: Any) -> str:
+    """A library value written as text or a plain number (TOML), as text."""
+    if isinstance(raw, bool) or not isinstance(raw, (str, int, float)):
+        raise ParameterError(f"parts library {entry_name}: expected {key} as text like "
+                             f"\"1mV\" or a number, found {raw!r}")
+    return str(raw)
+
+
+def _hot_temperature(text: str, where: str) -> float:
+    """``T_hot`` in °C: above 25 °C (hot values are interpolated from 25 °C to it) and at
+    most :data:`HOTTEST_C`."""
+    try:
+        value = float(text.replace("°C", "").strip())
+    except ValueError:
+        raise ParameterError(f"{where}: expected a temperature in °C, found {text!r}") from None
+    if not (math.isfinite(value) and 25.0 < value <= HOTTEST_C):
+        raise ParameterError(f"{where}: expected a temperature above 25 °C and at most "
+                             f"{HOTTEST_C:g} °C, found {text!r}")
+    return value
+
+
 def from_library(entry_name: str, entry: Mapping[str, Any]) -> OpampParams:
-    """Parameters of one parts-library entry (``[parts."NAME"]`` table)."""
+    """Parameters of one parts-library entry (``[parts."NAME"]`` table). A value of the
+    wrong type (``t_hot = "hot"``, ``aliases = 5``, ``ib_either_sign = "no"``) raises
+    :class:`ParameterError` naming the entry and the key (also in its ``key``)."""
+    reading: list[str] = []
+    try:
+        return _from_library(entry_name, entry, reading)
+    except ParameterError as error:
+        error.key = reading[-1] if reading else None
+        raise
+
+
+def _from_library(entry_name: str, entry: Mapping[str, Any], reading: list[str]) -> OpampParams:
     values: dict[str, Any] = {}
     typical: dict[str, float] = {}
     source: dict[str, str] = {}
@@ -101,31 +137,56 @@ def from_library(entry_name: str, entry: Mapping[str, Any]) -> OpampParams:
         raw = entry.get(name)
         if raw is None:
             continue
+        reading.append(name)
         limits = raw if isinstance(raw, Mapping) else {"max": raw}
+        unknown = sorted(set(limits) - {"typ", "max"})
+        if unknown:
+            raise ParameterError(f"parts library {entry_name}: {name} has the key "
+                                 f"{unknown[0]!r}; expected typ and max")
         if "max" in limits:
-            values[name], sign = _parse(name, str(limits["max"]), f"parts library {entry_name}")
+            text = _library_text(entry_name, f"{name}.max", limits["max"])
+            values[name], sign = _parse(name, text, f"parts library {entry_name}")
             either = either or (name == "ib" and sign)
             source[name] = label
         if "typ" in limits:
-            typical[name], _ = _parse(name, str(limits["typ"]), f"parts library {entry_name}")
+            text = _library_text(entry_name, f"{name}.typ", limits["typ"])
+            typical[name], _ = _parse(name, text, f"parts library {entry_name}")
     if "input" in entry:
-        kind = str(entry["input"]).strip().lower()
+        reading.append("input")
+        kind = str(entry["input"]).strip().lower() if isinstance(entry["input"], str) else None
         if kind not in INPUT_TYPES:
             raise ParameterError(f"parts library {entry_name}: expected input = "
                                  f"{' | '.join(INPUT_TYPES)}, found {entry['input']!r}")
         values["input_type"] = kind
         source["input_type"] = label
     if "aol" in entry:
+        reading.append("aol")
         try:
-            values["aol"] = parse_gain(str(entry["aol"]))
+            values["aol"] = parse_gain(_library_text(entry_name, "aol", entry["aol"]))
         except ValueFormatError as error:
             raise ParameterError(f"parts library {entry_name}: {error}") from None
         source["aol"] = label
     if "t_hot" in entry:
-        values["t_hot"] = float(entry["t_hot"])
+        reading.append("t_hot")
+        values["t_hot"] = _hot_temperature(_library_text(entry_name, "t_hot", entry["t_hot"]),
+                                           f"parts library {entry_name}: t_hot")
         source["t_hot"] = label
     if "ib_either_sign" in entry:
-        either = bool(entry["ib_either_sign"])
+        reading.append("ib_either_sign")
+        if not isinstance(entry["ib_either_sign"], bool):
+            raise ParameterError(f"parts library {entry_name}: expected ib_either_sign = true "
+                                 f"or false, found {entry['ib_either_sign']!r}")
+        either = entry["ib_either_sign"]
+    aliases = entry.get("aliases", [])
+    reading.append("aliases")
+    if not isinstance(aliases, list) or not all(isinstance(a, str) for a in aliases):
+        raise ParameterError(f"parts library {entry_name}: expected aliases = a list of names "
+                             f"like [\"OPX1A\"], found {aliases!r}")
+    for key in ("description", "rule", "measured"):
+        reading.append(key)
+        if key in entry and not isinstance(entry[key], str):
+            raise ParameterError(f"parts library {entry_name}: expected {key} as text, found "
+                                 f"{entry[key]!r}")
     return OpampParams(**values, ib_either_sign=either, typical=typical, source=source,
                        library_entry=entry_name)
 
@@ -178,11 +239,7 @@ def resolve(part: Part, library: Mapping[str, Mapping[str, Any]]) -> OpampParams
         source["aol"] = "field"
     text = part.field("T_hot")
     if text is not None and text.strip():
-        try:
-            changes["t_hot"] = float(text.replace("°C", "").strip())
-        except ValueError:
-            raise ParameterError(f"field T_hot of {part.ref}: expected a temperature in °C, "
-                                 f"found {text!r}") from None
+        changes["t_hot"] = _hot_temperature(text, f"field T_hot of {part.ref}")
         source["t_hot"] = "field"
     params = replace(params, **changes, ib_either_sign=either, source=source)
     return with_defaults(params)
@@ -222,13 +279,16 @@ def _current_at(at25: float | None, hot: float | None, t_hot: float, temp: float
         return None
     if temp <= 25.0:
         return at25
-    if hot is not None and t_hot > 25.0 and hot > 0 and at25 > 0:
-        fraction = (temp - 25.0) / (t_hot - 25.0)
+    try:
+        if hot is not None and t_hot > 25.0 and hot > 0 and at25 > 0:
+            fraction = (temp - 25.0) / (t_hot - 25.0)
+            if fet:
+                return at25 * (hot / at25) ** fraction
+            return at25 + (hot - at25) * fraction
         if fet:
-            return at25 * (hot / at25) ** fraction
-        return at25 + (hot - at25) * fraction
-    if fet:
-        return at25 * 2.0 ** ((temp - 25.0) / FET_DOUBLING_C)
+            return at25 * 2.0 ** ((temp - 25.0) / FET_DOUBLING_C)
+    except OverflowError:  # extrapolated far beyond T_hot: no finite figure
+        return math.inf
     return at25
 
 

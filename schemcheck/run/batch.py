@@ -15,8 +15,9 @@ from typing import Any, Callable
 
 from schemcheck import __version__
 from schemcheck.audit import CAUTION
-from schemcheck.errors import SchemcheckError
+from schemcheck.errors import ParseError, PathNotAllowedError, SchemcheckError
 from schemcheck.io.discover import DesignRef, find_designs
+from schemcheck.run.lifeline import watch_parent
 from schemcheck.run.settings import Settings
 
 UNREADABLE = "unreadable-design"
@@ -30,6 +31,8 @@ def settings_for(root: str, base: Settings, overrides: dict[str, Any],
     path = settings_path or find_settings(root)
     settings = load_settings(path, base) if path else base
     given = set(settings.given) | set(overrides.pop("given", ()))
+    if "parts_library" in overrides:  # the option's library, not the file's
+        overrides["parts_library_named_at"] = None
     return replace(settings, **overrides, given=tuple(sorted(given)))
 
 
@@ -40,7 +43,7 @@ def design_key_for(design: DesignRef, settings: Settings) -> str | None:
 
     try:
         return design_key(design.files, settings.describe(), settings.parts_library)
-    except OSError:
+    except (OSError, ParseError):
         return None
 
 
@@ -51,6 +54,8 @@ def submission_key(paths: list[str], overrides: dict[str, Any]) -> str:
     for design in designs:
         try:
             settings = settings_for(design.root, Settings(), dict(overrides))
+        except PathNotAllowedError:
+            raise
         except SchemcheckError:
             settings = Settings()  # the audit itself reports the bad settings file
         digest.update((design_key_for(design, settings) or design.root).encode())
@@ -66,7 +71,7 @@ def _unreadable(root: str, message: str, settings: Settings | None = None) -> di
                           "schematic editor", "sheet": "", "file": root}]}
 
 
-_LIBRARIES: dict[str, tuple[float, dict]] = {}
+_LIBRARIES: dict[str, tuple[tuple[int, int, int], dict]] = {}
 
 
 def audit_one(root: str, settings: Settings) -> dict[str, Any]:
@@ -75,16 +80,29 @@ def audit_one(root: str, settings: Settings) -> dict[str, Any]:
     from schemcheck.circuit.load import load_netlist
     from schemcheck.io.partslib import load_parts_library
 
+    from schemcheck.io.files import regular_file
+
     try:
         library: dict = {}
         if settings.parts_library:
-            stamp = os.path.getmtime(settings.parts_library)
+            status = regular_file(settings.parts_library, "parts library")
+            stamp = (status.st_mtime_ns, status.st_size, status.st_ino)
             cached = _LIBRARIES.get(settings.parts_library)
             if cached is None or cached[0] != stamp:
                 cached = _LIBRARIES[settings.parts_library] = (
                     stamp, load_parts_library(settings.parts_library))
             library = cached[1]
         return audit_netlist(load_netlist(root), settings, library).to_dict()
+    except PathNotAllowedError:
+        raise  # the service answers 403: nothing of the design is reported
+    except ParseError as error:
+        named = settings.parts_library_named_at
+        shown = error
+        if named and error.file == settings.parts_library and error.line is None:
+            # the library itself is missing or not a file: point at the line naming it
+            shown = ParseError(f"parts_library {settings.parts_library!r}: {error.message}",
+                               file=named[0], line=named[1], column=named[2])
+        return _unreadable(root, str(shown), settings)
     except SchemcheckError as error:
         detail = str(error)
         return _unreadable(root, detail, settings)
@@ -109,6 +127,8 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
         try:
             settings = settings_for(design.root, base or Settings(), dict(overrides or {}),
                                     settings_path)
+        except PathNotAllowedError:
+            raise
         except SchemcheckError as error:
             results[index] = _unreadable(design.root, str(error))
             continue
@@ -129,7 +149,9 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
         outputs = (audit_one(d.root, s) for _, d, s, _ in todo)
         pool = None
     else:
-        pool = ProcessPoolExecutor(max_workers=workers)
+        # each worker ends itself when this process dies, even by SIGKILL
+        pool = ProcessPoolExecutor(max_workers=workers, initializer=watch_parent,
+                                   initargs=(os.getpid(),))
         outputs = pool.map(_audit_task, [(d.root, s) for _, d, s, _ in todo], chunksize=1)
     try:
         for (index, design, _, key), result in zip(todo, outputs):

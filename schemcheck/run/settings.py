@@ -23,6 +23,8 @@ class Settings:
     parts_library: str | None = None
     #: which of the values above were set by the user (the rest are defaults)
     given: tuple[str, ...] = ()
+    #: (file, line, column) of the settings-file line naming ``parts_library``, if one did
+    parts_library_named_at: tuple[str, int, int] | None = None
 
     def describe(self) -> dict:
         return {
