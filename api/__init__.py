@@ -4,16 +4,21 @@ Settings (all optional): ``STORE_PATH`` (SQLite database, default the CLI's cach
 ``ALLOWED_FOLDERS`` (where JSON ``path`` submissions may point), ``MAX_CONTENT_LENGTH``
 (bytes, 413 beyond), ``AUDIT_TIMEOUT`` (seconds), ``MAX_CONCURRENT_AUDITS``, ``TOKEN``
 (bearer token required on every request when set), ``AUDIT_OVERRIDES`` (audit settings
-such as ``{"mc_samples": 2000, "parts_library": "..."}``), ``UPLOAD_FOLDER``.
+such as ``{"mc_samples": 2000, "parts_library": "..."}``), ``UPLOAD_FOLDER``,
+``ALLOWED_HOSTS`` (the ``Host`` names answered; default ``localhost`` and the loopback
+addresses; None answers any). :mod:`.guard` says which requests are refused before
+they reach a route. ``close_app(app)`` stops the audit workers.
 """
 
 from __future__ import annotations
 
-import hmac
 import tempfile
 from typing import Any
 
 from flask import Flask, request
+from flask.json.provider import DefaultJSONProvider
+
+from .guard import LOOPBACK_NAMES
 
 DEFAULTS: dict[str, Any] = {
     "STORE_PATH": None,
@@ -24,16 +29,26 @@ DEFAULTS: dict[str, Any] = {
     "TOKEN": None,
     "AUDIT_OVERRIDES": {},
     "UPLOAD_FOLDER": None,
+    "ALLOWED_HOSTS": list(LOOPBACK_NAMES),
 }
 
 
+class StrictJSONProvider(DefaultJSONProvider):
+    """JSON as RFC 8259 has it: NaN and Infinity are an error, never written."""
+
+    def dumps(self, obj: Any, **kwargs: Any) -> str:
+        kwargs.setdefault("allow_nan", False)
+        return super().dumps(obj, **kwargs)
+
+
 def create_app(settings: dict[str, Any] | None = None) -> Flask:
-    from . import audits, meta, problems
+    from . import audits, guard, meta, problems
     from .problems import Problem
     from .store import AuditStore
     from .worker import AuditRunner
 
     app = Flask(__name__)
+    app.json = StrictJSONProvider(app)
     app.config.update(DEFAULTS)
     app.config.update(settings or {})
     if app.config["UPLOAD_FOLDER"] is None:
@@ -44,14 +59,17 @@ def create_app(settings: dict[str, Any] | None = None) -> Flask:
     problems.register(app)
 
     @app.before_request
-    def _authorise():
-        token = app.config["TOKEN"]
-        if token:
-            given = request.headers.get("Authorization", "")
-            if not hmac.compare_digest(given.encode(), f"Bearer {token}".encode()):
-                raise Problem(401, "Unauthorised", "expected the header 'Authorization: Bearer "
-                                                   "<token>' with this service's token")
+    def _guard():
+        refusal = guard.check(request.method, request.headers.get, app.config)
+        if refusal is not None:
+            raise Problem(refusal.status, refusal.title, refusal.detail, refusal.headers)
 
     app.register_blueprint(audits.bp)
     app.register_blueprint(meta.bp)
     return app
+
+
+def close_app(app: Flask) -> None:
+    """Stop the app's audit workers and close its store (the service is stopping)."""
+    app.extensions["schemcheck.runner"].close()
+    app.extensions["schemcheck.store"].close()
