@@ -107,8 +107,13 @@ def audit_netlist(netlist: Netlist, settings: Settings,
         solution = solve(network)
         budgets = [stage_budget(solution, k, params, settings.temp_range)
                    for k in range(len(network.opamps))]
-        mc = monte_carlo(network, solution, params, settings.temp_range, settings.mc_samples,
-                         settings.seed) if settings.mc_samples > 0 else {}
+        try:
+            mc = monte_carlo(network, solution, params, settings.temp_range,
+                             settings.mc_samples, settings.seed) if settings.mc_samples > 0 else {}
+        except np.linalg.LinAlgError as error:  # a sampled network had no solution
+            mc = {}
+            problems.append(f"Monte Carlo not run: a sampled network could not be solved "
+                            f"({error}); monte_carlo_v is null")
     # a figure that overflowed is no figure: the checks and the report see None
     overflowed: dict[int, list[str]] = {}
     for k, budget in enumerate(budgets):

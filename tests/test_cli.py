@@ -315,3 +315,19 @@ def test_child_sheet_outside_the_root_folder_is_a_warning(tmp_path):
     assert ("the child sheet file '../shared/chain.kicad_sch' of sheet 'Chain' lies outside "
             "the root sheet's folder") in design["warnings"][0]
     assert "Warning: " in err
+
+
+def test_a_singular_monte_carlo_sample_is_a_stated_problem(tmp_path):
+    # Found by the fuzzer: with the power unit's '(unit 3)' gone, the placed symbol draws
+    # unit 1's pins while its instance says unit 3; the nominal network solves, a sampled
+    # one does not (numpy.linalg.LinAlgError escaped as a traceback).
+    text = (FIXTURES / "demo" / "chain.kicad_sch").read_text(encoding="utf-8")
+    edited = text.replace("\t\t(at 101.6 127 0)\n\t\t(unit 3)\n", "\t\t(at 101.6 127 0)\n", 1)
+    assert edited != text
+    (tmp_path / "odd.kicad_sch").write_text(edited, encoding="utf-8")
+    code, out, err = run("audit", tmp_path / "odd.kicad_sch", "--no-cache", "--samples", "20")
+    assert code in (0, 1) and "Traceback" not in err
+    design = strict(out)["designs"][0]
+    assert ("problem: Monte Carlo not run: a sampled network could not be solved (Singular "
+            "matrix); monte_carlo_v is null") in design["assumptions"]
+    assert all(stage["monte_carlo_v"] is None for stage in design["stages"])

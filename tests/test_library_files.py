@@ -64,6 +64,8 @@ def test_parts_library_of_the_wrong_type(tmp_path, line, expected):
     ("temperature_range = [0, inf]\n", "1:1: key 'temperature_range': expected [MIN, MAX] in "
                                        "°C, two finite numbers"),
     ("temperature_range = [true, false]\n", "1:1: key 'temperature_range': expected [MIN, MAX]"),
+    ("temperature_range = [0, " + "1" * 400 + "]\n", "1:1: key 'temperature_range': expected "
+                                                    "[MIN, MAX] in °C, two finite numbers"),
     ("seed = 1\nseed2 = 3\n", "2:1: unknown key 'seed2'"),
     ("\nseed = -1\n", "2:1: key 'seed': expected a whole number from 0 to 9223372036854775807, "
                       "found -1"),

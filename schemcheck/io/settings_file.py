@@ -36,6 +36,16 @@ _KEYS = ("temperature_range", "default_budget", "default_tolerance", "parts_libr
          "rules_off", "monte_carlo_samples", "seed", "source_resistance")
 
 
+def _finite_number(value: Any) -> bool:
+    """A TOML integer or float that is finite as a double (a 400-digit integer is not)."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return False
+    try:
+        return math.isfinite(float(value))
+    except OverflowError:
+        return False
+
+
 def find_settings(design_root: str) -> str | None:
     """The settings file beside ``design_root``, if there is one (anything by that name
     that is not a folder: reading it says what it is when it is not a regular file)."""
@@ -75,8 +85,7 @@ def apply_settings(data: dict[str, Any], path: str, base: Settings,
     if "temperature_range" in data:
         value = data["temperature_range"]
         if (not isinstance(value, list) or len(value) != 2
-                or not all(isinstance(v, (int, float)) and not isinstance(v, bool)
-                           and math.isfinite(v) for v in value)):
+                or not all(_finite_number(v) for v in value)):
             raise bad("temperature_range", "[MIN, MAX] in °C, two finite numbers")
         try:
             check_temperature_range(float(value[0]), float(value[1]), repr(value))
