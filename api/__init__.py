@@ -53,6 +53,7 @@ def create_app(settings: dict[str, Any] | None = None) -> Flask:
     app.config.update(settings or {})
     if app.config["UPLOAD_FOLDER"] is None:
         app.config["UPLOAD_FOLDER"] = tempfile.mkdtemp(prefix="schemcheck-uploads-")
+        app.extensions["schemcheck.own_upload_folder"] = app.config["UPLOAD_FOLDER"]
     app.extensions["schemcheck.store"] = AuditStore(app.config["STORE_PATH"])
     app.extensions["schemcheck.runner"] = AuditRunner(app.config["MAX_CONCURRENT_AUDITS"],
                                                       app.config["AUDIT_TIMEOUT"])
@@ -70,6 +71,12 @@ def create_app(settings: dict[str, Any] | None = None) -> Flask:
 
 
 def close_app(app: Flask) -> None:
-    """Stop the app's audit workers and close its store (the service is stopping)."""
+    """Stop the app's audit workers, close its store and remove the upload folder it made
+    (the service is stopping)."""
+    import shutil
+
     app.extensions["schemcheck.runner"].close()
     app.extensions["schemcheck.store"].close()
+    own = app.extensions.pop("schemcheck.own_upload_folder", None)
+    if own:
+        shutil.rmtree(own, ignore_errors=True)
