@@ -10,9 +10,11 @@ from pathlib import PurePosixPath
 
 from flask import Blueprint, Response, current_app, request
 
+from schemcheck.errors import PathNotAllowedError
+from schemcheck.io.files import confined
 from schemcheck.run.batch import submission_key
 
-from .problems import Problem
+from .problems import Problem, not_allowed
 from .schemas import AuditListSchema, AuditSchema, ListQuerySchema, PathRequestSchema
 
 bp = Blueprint("audits", __name__)
@@ -21,14 +23,44 @@ _LIST = AuditListSchema()
 _PATH = PathRequestSchema()
 _QUERY = ListQuerySchema()
 
+#: Longest upload name, and longest part of one (most file systems take 255 bytes).
+MAX_NAME_BYTES, MAX_PART_BYTES = 1024, 255
+
+
+def _invalid_name(name: str, why: str) -> Problem:
+    shown = name if len(name) <= 80 else name[:77] + "..."
+    return Problem(422, "Invalid file name", f"expected a relative file name without '..', "
+                   f"found {shown!r}: {why}")
+
 
 def _safe_relative(name: str) -> str:
+    if not name:
+        raise _invalid_name(name, "the name is empty")
+    if any(ord(c) < 32 or ord(c) == 127 for c in name):
+        raise _invalid_name(name, "it holds a control character")
+    try:
+        encoded = name.encode("utf-8")
+    except UnicodeEncodeError:
+        raise _invalid_name(name, "it is not valid Unicode text") from None
     path = PurePosixPath(name.replace("\\", "/"))
-    if (not name or path.is_absolute() or ".." in path.parts or ":" in path.parts[0]
+    if (not path.parts or path.is_absolute() or ".." in path.parts or ":" in path.parts[0]
             or any(part.startswith(".") for part in path.parts)):
-        raise Problem(422, "Invalid file name", f"expected a relative file name without '..', "
-                      f"found {name!r}")
+        raise _invalid_name(name, "it must name a file inside the upload, not start with '.' "
+                            "or '/', nor hold '..'")
+    if len(encoded) > MAX_NAME_BYTES or any(len(p.encode()) > MAX_PART_BYTES for p in path.parts):
+        raise _invalid_name(name, f"it is longer than {MAX_NAME_BYTES} bytes, or a part of it "
+                            f"longer than {MAX_PART_BYTES}")
     return str(path)
+
+
+def _check_layout(names: list[str]) -> None:
+    """Refuse a name used both as a file and as a folder (``a`` and ``a/b.kicad_sch``).
+    A name given twice is kept once: the later file replaces the earlier, as a copy into
+    one folder would."""
+    folders = {str(parent) for name in names for parent in PurePosixPath(name).parents}
+    for name in names:
+        if name in folders:
+            raise _invalid_name(name, "it is both a file and a folder of the upload")
 
 
 def _store():
@@ -39,13 +71,25 @@ def _answer(record: dict, cached: bool, status: int = 201) -> tuple[dict, int]:
     return _AUDIT.dump({**record, "cached": cached}), status
 
 
-def _audit(paths: list[str], name: str, strip: str | None) -> tuple[dict, int]:
-    key = submission_key(paths, current_app.config["AUDIT_OVERRIDES"])
-    existing = _store().find_by_key(key)
-    if existing is not None:
-        return _answer(existing, True)
-    runner = current_app.extensions["schemcheck.runner"]
-    report = runner.run(paths, dict(current_app.config["AUDIT_OVERRIDES"]))
+def _confinement(folders: list[str]) -> tuple[list[str], list[str]]:
+    """What an audit of this request may read: ``folders``, and the service's own parts
+    library (the operator chose it)."""
+    library = current_app.config["AUDIT_OVERRIDES"].get("parts_library")
+    return folders, [library] if library else []
+
+
+def _audit(paths: list[str], name: str, strip: str | None,
+           confinement: tuple[list[str], list[str]]) -> tuple[dict, int]:
+    try:
+        with confined(*confinement):
+            key = submission_key(paths, current_app.config["AUDIT_OVERRIDES"])
+        existing = _store().find_by_key(key)
+        if existing is not None:
+            return _answer(existing, True)
+        runner = current_app.extensions["schemcheck.runner"]
+        report = runner.run(paths, dict(current_app.config["AUDIT_OVERRIDES"]), confinement)
+    except PathNotAllowedError as error:
+        raise not_allowed(error, strip) from None
     if strip:
         text = json.dumps(report).replace(json.dumps(strip + os.sep)[1:-1], "")
         report = json.loads(text)
@@ -57,6 +101,16 @@ def _audit(paths: list[str], name: str, strip: str | None) -> tuple[dict, int]:
     return _answer(_store().add(key, name, report), False)
 
 
+def _json_body() -> dict:
+    try:
+        body = request.get_json(silent=True)
+    except RecursionError:  # nested too deeply for the parser
+        body = None
+    if not isinstance(body, dict):
+        raise Problem(400, "Bad request", "expected a JSON object {\"path\": \"...\"}")
+    return body
+
+
 @bp.post("/v1/audits")
 def create_audit():
     if request.mimetype == "multipart/form-data":
@@ -65,20 +119,20 @@ def create_audit():
             raise Problem(422, "No files", "expected one or more files in the multipart field "
                                            "'files' (the root sheet first)")
         names = [_safe_relative(u.filename or "") for u in uploads]
+        _check_layout(names)
         folder = tempfile.mkdtemp(prefix="upload-", dir=current_app.config["UPLOAD_FOLDER"])
         try:
             for upload, name in zip(uploads, names):
                 target = os.path.join(folder, name)
                 os.makedirs(os.path.dirname(target), exist_ok=True)
                 upload.save(target)
-            return _audit([os.path.join(folder, names[0])], names[0], folder)
+            # the design may read its own upload and nothing else
+            return _audit([os.path.join(folder, names[0])], names[0], folder,
+                          _confinement([folder]))
         finally:
             shutil.rmtree(folder, ignore_errors=True)
     if request.mimetype == "application/json":
-        body = request.get_json(silent=True)
-        if not isinstance(body, dict):
-            raise Problem(400, "Bad request", "expected a JSON object {\"path\": \"...\"}")
-        path = _PATH.load(body)["path"]
+        path = _PATH.load(_json_body())["path"]
         resolved = os.path.realpath(path)
         allowed = [os.path.realpath(f) for f in current_app.config["ALLOWED_FOLDERS"]]
         if not any(os.path.commonpath([resolved, a]) == a for a in allowed):
@@ -86,7 +140,7 @@ def create_audit():
                                                    "service may read")
         if not os.path.exists(resolved):
             raise Problem(404, "Not found", "no such file or folder under the allowed folders")
-        return _audit([resolved], path, None)
+        return _audit([resolved], path, None, _confinement(allowed))
     raise Problem(415, "Unsupported media type", "expected multipart/form-data with field "
                                                  "'files', or application/json with 'path'")
 
@@ -132,5 +186,5 @@ def get_report(audit_id: str, suffix: str):
 def get_sarif(audit_id: str):
     from schemcheck.report.sarif import sarif
 
-    body = json.dumps(sarif(_record(audit_id)["result"]), ensure_ascii=False)
+    body = json.dumps(sarif(_record(audit_id)["result"]), ensure_ascii=False, allow_nan=False)
     return Response(body, mimetype="application/sarif+json")

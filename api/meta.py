@@ -29,4 +29,4 @@ def parts():
 def openapi():
     from .openapi import build_spec
 
-    return jsonify(build_spec().to_dict())
+    return jsonify(build_spec(bool(current_app.config["TOKEN"])).to_dict())

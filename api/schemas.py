@@ -247,6 +247,9 @@ class DesignSchema(Schema):
     not_analysed = fields.List(fields.Nested(NotAnalysedSchema))
     settings = fields.Dict(keys=fields.String(), values=fields.Raw(allow_none=True))
     errors = fields.List(fields.String())
+    warnings = fields.List(fields.String(), metadata={
+        "description": "What the reader noticed (a reference used twice, a child sheet "
+                       "outside the root's folder); the figures are computed all the same"})
     caution = fields.String()
     missing_parameters = fields.List(fields.Nested(MissingPartSchema))
     parts_libraries = fields.List(fields.Nested(LibrarySourceSchema))
@@ -287,8 +290,14 @@ class PathRequestSchema(Schema):
     class Meta:
         unknown = RAISE
 
-    path = fields.String(required=True, validate=validate.Length(min=1, max=4096),
-                         metadata={"description": "A design under one of the allowed folders"})
+    path = fields.String(
+        required=True,
+        validate=[validate.Length(min=1, max=4096),
+                  # no NUL and no lone surrogate: no file can have such a name
+                  validate.Regexp(r"^[^\x00\ud800-\udfff]*$",
+                                  error="expected a file path without NUL characters or "
+                                        "unpaired surrogates")],
+        metadata={"description": "A design under one of the allowed folders"})
 
 
 class AuditSchema(Schema):

@@ -9,7 +9,7 @@ import time
 import uuid
 from typing import Any
 
-from schemcheck.run.cache import ResultCache
+from schemcheck.run.cache import ResultCache, result_problem, strict_json
 
 
 class AuditStore:
@@ -26,13 +26,13 @@ class AuditStore:
             row = self.cache.db.execute(
                 "SELECT id, name, created, result FROM audits WHERE key = ? "
                 "ORDER BY created DESC LIMIT 1", (key,)).fetchone()
-        return self._record(row) if row else None
+        return self._record(row)
 
     def get(self, audit_id: str) -> dict[str, Any] | None:
         with self.lock:
             row = self.cache.db.execute("SELECT id, name, created, result FROM audits WHERE id = ?",
                                         (audit_id,)).fetchone()
-        return self._record(row) if row else None
+        return self._record(row)
 
     def add(self, key: str, name: str, result: dict[str, Any]) -> dict[str, Any]:
         record = {"id": uuid.uuid4().hex, "name": name, "created": time.time(),
@@ -40,7 +40,7 @@ class AuditStore:
         with self.lock, self.cache.db:
             self.cache.db.execute("INSERT INTO audits VALUES (?, ?, ?, ?, ?)",
                                   (record["id"], key, name, record["created"],
-                                   json.dumps(result, sort_keys=True)))
+                                   json.dumps(result, sort_keys=True, allow_nan=False)))
         return record
 
     def recent(self, limit: int) -> list[dict[str, Any]]:
@@ -51,6 +51,8 @@ class AuditStore:
         out = []
         for row in rows:
             record = self._record(row)
+            if record is None:
+                continue
             designs = record["result"]["designs"]
             out.append({"id": record["id"], "name": record["name"], "created": record["created"],
                         "designs": len(designs),
@@ -60,9 +62,23 @@ class AuditStore:
                                         for f in d["findings"])})
         return out
 
-    @staticmethod
-    def _record(row) -> dict[str, Any]:
-        return {"id": row[0], "name": row[1], "created": row[2], "result": json.loads(row[3])}
+    def _record(self, row) -> dict[str, Any] | None:
+        """The record of a row, or None for none or one that is not an audit (a damaged
+        or foreign row is left alone and reported in ``warnings``)."""
+        if not row:
+            return None
+        try:
+            result = strict_json(row[3])
+            designs = result.get("designs") if isinstance(result, dict) else None
+            problem = ("expected a report with designs" if not isinstance(designs, list)
+                       else next(filter(None, map(result_problem, designs)), None))
+        except (ValueError, TypeError) as error:
+            problem = str(error)
+        if problem or not isinstance(row[0], str) or not isinstance(row[2], (int, float)):
+            self.warnings.append(f"stored audit {row[0]!r} is unreadable "
+                                 f"({problem or 'bad id or time'}); left out")
+            return None
+        return {"id": row[0], "name": str(row[1]), "created": row[2], "result": result}
 
     def close(self) -> None:
         self.cache.close()

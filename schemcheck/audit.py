@@ -6,8 +6,12 @@ caller does the I/O.
 
 from __future__ import annotations
 
+import dataclasses
+import math
 from dataclasses import replace
 from typing import Any, Mapping
+
+import numpy as np
 
 from schemcheck import checks
 from schemcheck.assumptions import design_assumptions
@@ -42,6 +46,24 @@ from schemcheck.units import ValueFormatError, parse_quantity
 DesignAudit = DesignResult
 
 
+def _non_finite(value: Any, where: str, found: list[str]) -> None:
+    """Name in ``found`` every figure of ``value`` (a results object) that is not finite:
+    JSON has no NaN or Infinity, and such a figure means nothing (it is written as null)."""
+    if isinstance(value, float):
+        if not math.isfinite(value):
+            found.append(where)
+    elif dataclasses.is_dataclass(value) and not isinstance(value, type):
+        for spec in dataclasses.fields(value):
+            _non_finite(getattr(value, spec.name), f"{where}.{spec.name}" if where
+                        else spec.name, found)
+    elif isinstance(value, dict):
+        for key, item in value.items():
+            _non_finite(item, f"{where}.{key}", found)
+    elif isinstance(value, list):
+        for i, item in enumerate(value):
+            _non_finite(item, f"{where}[{i}]", found)
+
+
 def _budget_limit(netlist_part, settings: Settings, problems: list[str]) -> float | None:
     text = netlist_part.field("DC_Budget")
     if text:
@@ -61,6 +83,7 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     library = PartsLibrary.of(library)
     result = DesignResult(file=netlist.source, settings=settings.describe(),
                           errors=list(netlist.errors),
+                          warnings=list(netlist.warnings),
                           parts_libraries=[LibrarySource(**s.to_dict()) for s in library.sources])
     units, skipped = recognise(netlist.parts)
     network, solution, omitted = _analysable(netlist, units, skipped, settings)
@@ -90,24 +113,47 @@ def audit_netlist(netlist: Netlist, settings: Settings,
             p = OpampParams(source={"error": str(error)})
         params.append(p)
         op.aol = p.aol
-    if any(p.aol for p in params):
-        solution = solve(network)  # the finite gains change the figures
-    budgets = [stage_budget(solution, k, params, settings.temp_range)
-               for k in range(len(network.opamps))]
-    histograms: dict[int, Binned] | None = {} if settings.charts else None
-    mc = monte_carlo(network, solution, params, settings.temp_range, settings.mc_samples,
-                     settings.seed, histograms=histograms) if settings.mc_samples > 0 else {}
-    ranges = travels(network, solution)
-    budget_at: dict[int, str] = {}
-    for k, travel in ranges.items():
-        worse = _worse_end(travel, k, params, settings, budgets[k])
-        if worse is not None:
-            budgets[k], setting = worse
-            budget_at[k] = setting.describe()
-            if settings.mc_samples > 0:
-                mc[k] = monte_carlo(setting.network, setting.solution, params,
-                                    settings.temp_range, settings.mc_samples,
-                                    settings.seed).get(k)
+    # overflow and 0/0 give inf and nan, which are caught below: no warning about them
+    with np.errstate(all="ignore"):
+        if any(p.aol for p in params):
+            solution = solve(network)  # the finite gains change the figures
+        budgets = [stage_budget(solution, k, params, settings.temp_range)
+                   for k in range(len(network.opamps))]
+        histograms: dict[int, Binned] | None = {} if settings.charts else None
+        try:
+            mc = monte_carlo(network, solution, params, settings.temp_range,
+                             settings.mc_samples, settings.seed,
+                             histograms=histograms) if settings.mc_samples > 0 else {}
+        except np.linalg.LinAlgError as error:  # a sampled network had no solution
+            mc = {}
+            problems.append(f"Monte Carlo not run: a sampled network could not be solved "
+                            f"({error}); monte_carlo_v is null")
+        ranges = travels(network, solution)
+        budget_at: dict[int, str] = {}
+        for k, travel in ranges.items():
+            worse = _worse_end(travel, k, params, settings, budgets[k])
+            if worse is not None:
+                budgets[k], setting = worse
+                budget_at[k] = setting.describe()
+                if settings.mc_samples > 0 and k in mc:
+                    try:
+                        mc[k] = monte_carlo(setting.network, setting.solution, params,
+                                            settings.temp_range, settings.mc_samples,
+                                            settings.seed).get(k)
+                    except np.linalg.LinAlgError:
+                        mc[k] = None
+    # a figure that overflowed is no figure: the checks and the report see None
+    for budget in budgets:
+        for name in ("worst_case_own_v", "worst_case_total_v", "rss_own_v", "rss_v",
+                     "worst_case_over_temp_v"):
+            value = getattr(budget, name)
+            if value is not None and not math.isfinite(value):
+                setattr(budget, name, None)
+        if not all(math.isfinite(c["worst_case_v"]) for c in budget.contributors):
+            budget.contributors = []
+    for k, value in mc.items():
+        if value is not None and not math.isfinite(value):
+            mc[k] = None
     limits = [_budget_limit(op.unit.part, settings, problems) for op in network.opamps]
     ctx = StageContext(network, solution, params, budgets, limits, settings.temp_range,
                        settings.estimate_missing)
@@ -134,6 +180,13 @@ def audit_netlist(netlist: Netlist, settings: Settings,
         stage.budget_at = budget_at.get(k)
         stage.excludes = excludes[k]
     _chain_and_charts(ctx, mc, histograms, result.stages)
+    for stage in result.stages:
+        dropped: list[str] = []
+        _non_finite(stage, "", dropped)
+        if dropped:
+            problems.append(f"{stage.id}: no finite value for {', '.join(dropped)} (the "
+                            "network is numerically singular or a parameter lies far out of "
+                            "range); reported as null")
     result.assumptions = design_assumptions(network, netlist.parts, params,
                                             {s.part.ref for s in skipped}, problems)
     result.assumptions += _stage_notes(network, solution, ranges, budget_at, excludes, omitted)

@@ -18,6 +18,7 @@ if TYPE_CHECKING:
 
 EXIT_FINDINGS = 1
 EXIT_BAD_INPUT = 2
+MAX_SEED = 2**63 - 1  # as in a settings file (TOML's largest whole number)
 
 
 def _format_option(choices: tuple[str, ...], default: str) -> Callable[[Any], Any]:
@@ -40,6 +41,13 @@ def _reports_errors(command: Callable[..., Any]) -> Callable[..., Any]:
     return wrapper
 
 
+class _OptionError(SchemcheckError):
+    """An option names a file that cannot be used."""
+
+    def __init__(self, option: str, error: SchemcheckError) -> None:
+        super().__init__(f"{option}: {error}")
+
+
 def _json(data: Any) -> str:
     """Indented for a person at a terminal; compact (and several times faster, via the C
     encoder) when piped to a program."""
@@ -48,6 +56,7 @@ def _json(data: Any) -> str:
     from schemcheck.report.json import to_data
 
     indent = 2 if sys.stdout.isatty() else None
+    # strict JSON: a NaN or Infinity would be a bug of ours, never written as a number
     return json.dumps(to_data(data), indent=indent, ensure_ascii=False, allow_nan=False)
 
 
@@ -91,6 +100,9 @@ def netlist(path: str, fmt: str) -> None:
         _emit(netlist_text(result))
     for error in result.errors:
         click.echo(f"Error: {error}", err=True)
+    if fmt == "json":  # the text format lists them itself
+        for warning in result.warnings:
+            click.echo(f"Warning: {warning}", err=True)
     if result.errors:
         sys.exit(EXIT_BAD_INPUT)
 
@@ -134,7 +146,8 @@ def _fail_on_option(command: Callable[..., Any]) -> Callable[..., Any]:
               help="Default output error budget for stages without a DC_Budget field (e.g. 5mV).")
 @click.option("--samples", "samples", type=click.IntRange(0, 1_000_000), default=None,
               help="Monte Carlo samples per network (default 10000; 0 turns it off).")
-@click.option("--seed", "seed", type=int, default=None, help="Monte Carlo seed (default 1).")
+@click.option("--seed", "seed", type=click.IntRange(0, MAX_SEED), default=None,
+              help="Monte Carlo seed, a whole number from 0 (default 1).")
 @click.option("--settings", "settings_path", type=click.Path(dir_okay=False, path_type=str),
               default=None, help="Settings file to use instead of schemcheck.toml beside "
                                  "each design.")
@@ -187,6 +200,7 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
       schemcheck audit frontend.kicad_sch --format html --output frontend.html
     """
     from schemcheck.io.discover import find_designs
+    from schemcheck.io.files import regular_file
     from schemcheck.run.batch import Progress, audit_paths
     from schemcheck.run.runner import options_to_overrides
 
@@ -202,6 +216,13 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
     if fmt is None:
         fmt = "text" if not output and sys.stdout.isatty() else "json"
 
+    for option, path, what in (("--parts", parts, "parts library"),
+                               ("--settings", settings_path, "settings file")):
+        if path is not None:
+            try:
+                regular_file(path, what)
+            except SchemcheckError as problem:
+                raise _OptionError(option, problem) from None
     overrides = options_to_overrides(temp=temp, parts=parts, budget=budget, samples=samples,
                                      seed=seed, estimate_missing=estimate_missing)
     if charts or fmt == "html":
@@ -281,6 +302,8 @@ def _finish(report: dict[str, Any], fmt: str, output: str | None, fail_on: str) 
     for design in report["designs"]:
         for error in design["errors"]:
             click.echo(f"Error: {error}", err=True)
+        for warning in design.get("warnings", []):
+            click.echo(f"Warning: {warning}", err=True)
     sys.exit(exit_status(report, fail_on))
 
 
@@ -471,11 +494,18 @@ _LOOPBACK = ("127.0.0.1", "localhost", "::1")
               show_default=True, help="Largest upload, MB (413 beyond).")
 @click.option("--threads", type=click.IntRange(1, 64), default=8, show_default=True,
               help="Server threads.")
+@click.option("--allow-host", "allow_hosts", multiple=True, metavar="NAME",
+              help="Another Host name clients may use to reach the service (repeatable); "
+                   "the bound address, localhost and the loopback addresses always work.")
 @_reports_errors
 def serve(host: str, port: int, token: str | None, allow: tuple[str, ...], store: str | None,
           parts: str | None, samples: int | None, timeout: float, max_upload: int,
-          threads: int) -> None:
+          threads: int, allow_hosts: tuple[str, ...]) -> None:
     """Run the local HTTP service that editor scripts query (waitress).
+
+    Requests naming another Host, coming from a page of another site, or uploading
+    without the X-Schemcheck-Client header (or the token) are refused, before any body
+    is read. SIGTERM or Ctrl-C stops the service and every process it started.
 
     \b
     Example:
@@ -486,22 +516,29 @@ def serve(host: str, port: int, token: str | None, allow: tuple[str, ...], store
                    "token (--token or SCHEMCHECK_TOKEN) that clients send as a bearer token",
                    err=True)
         sys.exit(EXIT_BAD_INPUT)
-    import waitress
-
     from schemcheck_api import create_app
+    from schemcheck_api.guard import allowed_hosts
+    from schemcheck_api.server import serve as serve_app
 
     overrides: dict[str, Any] = {}
     if parts:
+        from schemcheck.io.files import regular_file
+
+        try:
+            regular_file(parts, "parts library")
+        except SchemcheckError as error:
+            raise _OptionError("--parts", error) from None
         overrides["parts_library"] = os.path.abspath(parts)
     if samples is not None:
         overrides["mc_samples"] = samples
     app = create_app({"STORE_PATH": store, "TOKEN": token, "AUDIT_TIMEOUT": timeout,
                       "ALLOWED_FOLDERS": [os.path.abspath(a) for a in allow],
                       "MAX_CONTENT_LENGTH": max_upload * 1024 * 1024,
-                      "AUDIT_OVERRIDES": overrides})
+                      "AUDIT_OVERRIDES": overrides,
+                      "ALLOWED_HOSTS": allowed_hosts(host, allow_hosts)})
     click.echo(f"schemcheck {__version__} serving on http://{host}:{port}/ "
                "(OpenAPI document at /openapi.json)", err=True)
-    waitress.serve(app, host=host, port=port, threads=threads, ident="schemcheck")
+    serve_app(app, host=host, port=port, threads=threads)
 
 
 if __name__ == "__main__":  # pragma: no cover

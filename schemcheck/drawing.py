@@ -124,6 +124,8 @@ class Design:
     #: (parent file, index of the sheet symbol in it) -> child key in ``sheets`` or None
     children: dict[tuple[str, int], str | None] = field(default_factory=dict)
     problems: list[SchemcheckError] = field(default_factory=list)
+    #: what was read but deserves a word (a child sheet outside the root's folder)
+    warnings: list[str] = field(default_factory=list)
 
     @property
     def project_name(self) -> str:

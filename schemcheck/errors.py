@@ -62,3 +62,31 @@ class ParseError(SchemcheckError, ValueError):
 
 class DesignError(SchemcheckError):
     """The files read, but the design they describe is inconsistent (missing sheet, cycle)."""
+
+
+class PathNotAllowedError(SchemcheckError):
+    """A file a design pulls in (child sheet, settings, parts library) lies outside the
+    folders this run may read (the service's upload and allowed folders). The file was
+    not opened. ``reference`` is the path as the design wrote it; ``file``, ``line`` and
+    ``column`` locate the reference where known."""
+
+    def __init__(self, reference: str, what: str, *, file: str | None = None,
+                 line: int | None = None, column: int | None = None) -> None:
+        self.reference, self.what = reference, what
+        self.file, self.line, self.column = file, line, column
+        where = ""
+        if file:
+            where = file + (f":{line}:{column}" if line is not None and column is not None
+                            else "") + ": "
+        super().__init__(f"{where}the {what} {reference!r} lies outside the folders this "
+                         "service may read (the upload and the allowed folders); it was not "
+                         "opened")
+
+    def __reduce__(self):  # keeps the keyword fields across process boundaries
+        return (_rebuild_not_allowed, (self.reference, self.what, self.file, self.line,
+                                       self.column))
+
+
+def _rebuild_not_allowed(reference: str, what: str, file: str | None, line: int | None,
+                         column: int | None) -> PathNotAllowedError:
+    return PathNotAllowedError(reference, what, file=file, line=line, column=column)

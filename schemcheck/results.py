@@ -333,6 +333,9 @@ class DesignResult:
     not_analysed: list[NotAnalysed] = field(default_factory=list)
     settings: dict[str, Any] = field(default_factory=dict)
     errors: list[str] = field(default_factory=list)
+    #: what the reader noticed (a reference used twice, a child sheet outside the root's
+    #: folder); the figures are computed all the same
+    warnings: list[str] = field(default_factory=list)
     caution: str = CAUTION
     missing_parameters: list[MissingPart] = field(default_factory=list)
     parts_libraries: list[LibrarySource] = field(default_factory=list)

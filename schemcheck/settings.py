@@ -34,6 +34,8 @@ class Settings:
     value_notations: tuple[tuple[str, str], ...] = ()
     #: keep the figures the HTML report draws (error over temperature, Monte Carlo histogram)
     charts: bool = False
+    #: (file, line, column) of the settings-file line naming ``parts_library``, if one did
+    parts_library_named_at: tuple[str, int, int] | None = None
     #: which of the values above were set by the user (the rest are defaults)
     given: tuple[str, ...] = ()
 

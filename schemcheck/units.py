@@ -194,18 +194,38 @@ def parse_tolerance(text: str, what: str = "tolerance") -> float:
 
 
 def parse_gain(text: str, what: str = "open-loop gain") -> float:
-    """Open-loop gain as V/V from ``1e5``, ``100000``, ``100dB``, ``120 dB``, ``100V/mV``."""
+    """Open-loop gain as V/V from ``1e5``, ``100000``, ``100dB``, ``120 dB``, ``100V/mV``.
+
+    An amplifier's open-loop gain is at least 1 V/V (0 dB) and finite; anything else is
+    refused (0 would leave the output undriven, infinity is the ideal-op-amp default
+    written by leaving the field out).
+    """
     raw = _clean(text)
+    value: float | None = None
     match = re.fullmatch(r"(" + _NUMBER + r")\s*dB", raw, flags=re.I)
     if match:
-        return 10 ** (float(match.group(1)) / 20.0)
-    match = re.fullmatch(r"(" + _NUMBER + r")\s*V/mV", raw, flags=re.I)
-    if match:
-        return float(match.group(1)) * 1e3
-    match = re.fullmatch(r"(" + _NUMBER + r")\s*(?:V/V)?", raw, flags=re.I)
-    if match:
-        return float(match.group(1))
-    raise ValueFormatError(f"expected {what} as V/V or dB (1e5, 100dB), found {text!r}")
+        decibels = float(match.group(1))
+        value = 10 ** (decibels / 20.0) if decibels < 6000 else math.inf
+    else:
+        match = re.fullmatch(r"(" + _NUMBER + r")\s*V/mV", raw, flags=re.I)
+        if match:
+            value = float(match.group(1)) * 1e3
+        else:
+            match = re.fullmatch(r"(" + _NUMBER + r")\s*(?:V/V)?", raw, flags=re.I)
+            if match:
+                value = float(match.group(1))
+    if value is None:
+        raise ValueFormatError(f"expected {what} as V/V or dB (1e5, 100dB), found {text!r}")
+    if not (math.isfinite(value) and value >= 1.0):
+        raise ValueFormatError(f"expected {what} of at least 1 V/V (0 dB) and finite, found "
+                               f"{text!r}")
+    return value
+
+
+#: Absolute zero, °C: the lowest temperature a range may name.
+ABSOLUTE_ZERO_C = -273.15
+#: Hotter than any electronics operates (common practice: parts are rated to 125-225 °C).
+HOTTEST_C = 1000.0
 
 
 def parse_temperature_range(text: str) -> tuple[float, float]:
@@ -215,9 +235,20 @@ def parse_temperature_range(text: str) -> tuple[float, float]:
         raise ValueFormatError(f"expected a temperature range MIN:MAX in °C (like -40:85), "
                                f"found {text!r}")
     low, high = float(match.group(1)), float(match.group(2))
-    if low > high:
-        raise ValueFormatError(f"expected MIN <= MAX in the temperature range, found {text!r}")
+    check_temperature_range(low, high, repr(text))
     return low, high
+
+
+def check_temperature_range(low: float, high: float, shown: str) -> None:
+    """Refuse a range that is not finite, outside absolute zero to :data:`HOTTEST_C` or
+    upside down."""
+    if not (math.isfinite(low) and math.isfinite(high)):
+        raise ValueFormatError(f"expected finite temperatures in °C, found {shown}")
+    if low < ABSOLUTE_ZERO_C or high > HOTTEST_C:
+        raise ValueFormatError(f"expected temperatures from {ABSOLUTE_ZERO_C:g} °C (absolute "
+                               f"zero) to {HOTTEST_C:g} °C, found {shown}")
+    if low > high:
+        raise ValueFormatError(f"expected MIN <= MAX in the temperature range, found {shown}")
 
 
 _SI = [(1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "µ"), (1e-9, "n"),

@@ -85,6 +85,9 @@ def encode_multipart(files: list[str], base: str) -> tuple[bytes, str]:
 def request(url: str, token: str | None, data: bytes | None = None,
             content_type: str | None = None, timeout: float = 300.0) -> tuple[int, bytes]:
     req = urllib.request.Request(url, data=data, method="POST" if data is not None else "GET")
+    # the service takes uploads only from clients that say who they are (a web page of
+    # another site cannot send this header)
+    req.add_header("X-Schemcheck-Client", "schemcheck-action")
     if content_type:
         req.add_header("Content-Type", content_type)
     if token:

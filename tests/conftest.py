@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import csv
 import os
+import time
 from pathlib import Path
 
 import pytest
@@ -78,3 +79,60 @@ def stages_as_data(result):
     result.stages = [to_data(s) for s in result.stages]
     result.not_analysed = [to_data(n) for n in result.not_analysed]
     return result
+
+
+@pytest.fixture
+def make_app():
+    """``make_app(settings)``: the service's Flask app; its audit workers are stopped after
+    the test (the suite leaves no process behind)."""
+    from schemcheck_api import close_app, create_app
+
+    apps = []
+
+    def make(settings):
+        app = create_app(settings)
+        apps.append(app)
+        return app
+
+    yield make
+    for app in apps:
+        close_app(app)
+
+
+def session_processes(sid: int) -> list[tuple[int, str]]:
+    """(pid, command line) of every live process in session ``sid`` (Linux /proc)."""
+    found = []
+    for entry in os.listdir("/proc"):
+        if not entry.isdigit():
+            continue
+        try:
+            with open(f"/proc/{entry}/stat", encoding="utf-8", errors="replace") as handle:
+                fields = handle.read().rsplit(")", 1)[1].split()
+            if fields[0] == "Z" or int(fields[3]) != sid:  # state, ..., session id
+                continue
+            with open(f"/proc/{entry}/cmdline", "rb") as handle:
+                command = handle.read().replace(b"\0", b" ").decode("utf-8", "replace")
+        except (OSError, IndexError, ValueError):
+            continue  # ended while we looked
+        found.append((int(entry), command.strip()))
+    return found
+
+
+def wait_session_empty(sid: int, seconds: float = 15.0) -> list[tuple[int, str]]:
+    """The processes of session ``sid`` still alive after up to ``seconds``; those left are
+    killed (by their pid) so that a failing test leaves nothing behind either."""
+    deadline = time.monotonic() + seconds
+    left = session_processes(sid)
+    while left and time.monotonic() < deadline:
+        time.sleep(0.1)
+        left = session_processes(sid)
+    for pid, _ in left:
+        try:
+            os.kill(pid, 9)
+        except OSError:
+            pass
+    return left
+
+
+needs_proc = pytest.mark.skipif(not os.path.isdir("/proc/self"),
+                                reason="process sessions are read from Linux /proc")

@@ -22,6 +22,7 @@ from schemcheck.run.batch import audit_paths, exit_status
 from schemcheck.run.cache import ResultCache
 from schemcheck.cli import main
 
+from .conftest import needs_proc, session_processes, wait_session_empty
 from .make_demo import stage
 from .synth import Sheet
 
@@ -142,6 +143,29 @@ def test_killed_run_leaves_a_readable_database(library, tmp_path):
     cache.close()
 
 
+@needs_proc
+def test_killed_batch_leaves_no_worker(library):
+    # Outside source: the process table (Linux /proc). A batch killed with SIGKILL cannot
+    # stop its workers itself; each worker must notice and end (a parent-death check).
+    command = [sys.executable, "-m", "schemcheck", "audit", str(library), "--jobs", "2",
+               "--no-cache", "--samples", "20000", "--format", "json"]
+    proc = subprocess.Popen(command, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+                            start_new_session=True)
+    try:
+        deadline = time.time() + 60
+        while time.time() < deadline and len(session_processes(proc.pid)) < 3:
+            time.sleep(0.1)  # the batch and its two workers
+        assert len(session_processes(proc.pid)) >= 3, "the batch never started its workers"
+        proc.send_signal(signal.SIGKILL)
+        proc.wait()
+        left = wait_session_empty(proc.pid)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+            proc.wait()
+    assert left == []
+
+
 @pytest.mark.parametrize("content", [b"this is not a database at all" * 100, "foreign"],
                          ids=["garbage", "foreign-sqlite"])
 def test_corrupt_or_foreign_database_is_rebuilt(tmp_path, content):
@@ -159,8 +183,10 @@ def test_corrupt_or_foreign_database_is_rebuilt(tmp_path, content):
     cache = ResultCache(str(path))
     assert len(cache.warnings) == 1 and "moved to" in cache.warnings[0]
     assert cache.get("k") is None
-    cache.put("k", "root", {"x": 1})
-    assert cache.get("k") == {"x": 1}
+    result = {"file": "root", "stages": [], "findings": [], "assumptions": [],
+              "not_analysed": [], "settings": {}, "errors": []}
+    cache.put("k", "root", result)
+    assert cache.get("k") == result
     cache.close()
 
 
@@ -185,3 +211,25 @@ def test_unknown_settings_key_is_named(tmp_path):
     error = report["designs"][0]["errors"][0]
     assert error.startswith(str(tmp_path / "schemcheck.toml"))
     assert "unknown key 'temprange'" in error
+
+
+@pytest.mark.parametrize("row", ["5", '{"x": 1}', "[]", '{"file": 1}', "null",
+                                 '{"file": "a", "stages": [], "findings": [{"severity": "fatal"}],'
+                                 ' "assumptions": [], "not_analysed": [], "settings": {},'
+                                 ' "errors": []}', '{"stages": NaN}'],
+                         ids=["number", "object", "list", "wrong-type", "null",
+                              "bad-severity", "nan"])
+def test_cache_row_that_is_json_but_not_a_result(tmp_path, row):
+    # Outside source: the expected report is the one audited afresh, without a cache.
+    (tmp_path / "d").mkdir()
+    (tmp_path / "d" / "board.kicad_sch").write_text(_design(2), encoding="utf-8")
+    fresh = audit_paths([str(tmp_path / "d")], overrides={"mc_samples": 0}, jobs=1)
+    cache = ResultCache(str(tmp_path / "results.sqlite3"))
+    audit_paths([str(tmp_path / "d")], overrides={"mc_samples": 0}, jobs=1, cache=cache)
+    with cache.db:
+        cache.db.execute("UPDATE results SET result = ?", (row,))
+    again = audit_paths([str(tmp_path / "d")], overrides={"mc_samples": 0}, jobs=1, cache=cache)
+    cache.close()
+    assert again["designs"] == fresh["designs"]
+    assert again["stats"]["audited"] == 1
+    assert len(again["warnings"]) == 1 and "could not read a cached result" in again["warnings"][0]

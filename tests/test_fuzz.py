@@ -1,5 +1,7 @@
 """Fuzzing the tokenizer and reader with mutated real files: nothing escapes but the
-project's own error type.
+project's own error type; and the whole command line on mutated files
+(``scripts/fuzz_inputs.py``): exit 2 with file, line and column, never a traceback, a
+hang or a memory blow-up.
 
 Outside source: the seeds are real files (the corpus where present, else our fixtures);
 mutations are random byte-level edits (hypothesis-driven), so no expectation comes from us
@@ -19,7 +21,7 @@ from schemcheck.io.kicad_sch import read_sheet
 from schemcheck.circuit.load import sniff
 from schemcheck.io.netlist import read_sexpr_netlist, read_xml_netlist
 
-from .conftest import FIXTURES, corpus_files
+from .conftest import CORPUS, FIXTURES, corpus_files, needs_corpus
 
 SEEDS = [p.read_bytes() for p in (corpus_files(".kicad_sch")[:4] + corpus_files(".net"))]
 SEEDS += [p.read_bytes() for p in sorted(FIXTURES.rglob("*.kicad_sch"))[:2]]
@@ -66,3 +68,34 @@ def test_mutated_files_raise_only_our_errors(data):
         read_any(data)
     except SchemcheckError:
         pass
+
+
+def _fuzz(*args: str) -> dict:
+    """Run the mutation fuzzer (seeded) as a process; its JSON summary."""
+    import json
+    import os
+    import subprocess
+    import sys
+
+    from .conftest import ROOT
+
+    proc = subprocess.run([sys.executable, str(ROOT / "scripts" / "fuzz_inputs.py"), "--json",
+                           "--time-limit", "20", "--memory-mb", "1536", *args],
+                          capture_output=True, text=True, timeout=900, cwd=ROOT,
+                          env={**os.environ, "OPENBLAS_NUM_THREADS": "1"})
+    assert proc.returncode in (0, 1), proc.stderr[-3000:]
+    return json.loads(proc.stdout.splitlines()[-1])
+
+
+def test_mutated_fixtures_through_the_command_line():
+    # 200 seeded inputs: schematics, netlists (S-expression and XML), parts libraries and
+    # settings files; each with a time limit, all under a 1.5 GB address-space limit
+    summary = _fuzz("--count", "200", "--seed", "12")
+    assert summary["failures"] == []
+    assert summary["inputs"] == 200
+
+
+@needs_corpus
+def test_mutated_corpus_through_the_command_line():
+    summary = _fuzz("--count", "100", "--seed", "13", "--corpus", str(CORPUS), "--corpus-only")
+    assert summary["failures"] == []

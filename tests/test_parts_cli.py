@@ -208,7 +208,7 @@ def test_check_invalid_library_is_exit_2(at_root, tmp_path):
     bad.write_text('[parts."OPX-1"]\nvos = { typ = "2mV", max = "1mV" }\n', encoding="utf-8")
     code, out, err = run("parts", "check", bad)
     assert (code, out) == (2, "")
-    assert err == f"Error: {bad}:2: entry 'OPX-1', key 'vos': max (1 mV) is below typ (2 mV)\n"
+    assert err == f"Error: {bad}:2:1: entry 'OPX-1', key 'vos': max (1 mV) is below typ (2 mV)\n"
 
 
 def test_report_lists_libraries_and_a_later_one_wins(at_root):

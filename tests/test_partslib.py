@@ -79,38 +79,38 @@ HEAD = '# a library\n\n[parts."LX1612"]\ninput = "jfet"\n'
 
 @pytest.mark.parametrize(("text", "message"), [
     pytest.param(HEAD + 'vso = "1mV"\n',
-                 "lib.toml:3: entry 'LX1612': unknown key 'vso' (expected one of aliases, aol, "
+                 "lib.toml:5:1: entry 'LX1612', key 'vso': unknown key (expected one of aliases, aol, "
                  "description, ib, ib_either_sign, ib_hot, input, ios, ios_hot, measured, rule, "
                  "t_hot, tcvos, vos)", id="unknown-key"),
     pytest.param(HEAD + 'vos = { min = "1mV" }\n',
-                 "lib.toml:5: entry 'LX1612', key 'vos': unknown key 'min' (expected typ, max)",
+                 "lib.toml:5:1: entry 'LX1612', key 'vos': unknown key 'min' (expected typ, max)",
                  id="unknown-limit"),
     pytest.param(HEAD + 'ib = "2"\nvos = { typ = "1mV", max = "3mA" }\n',
-                 "lib.toml:6: entry 'LX1612', key 'vos.max': expected vos in volts (2mV, 500uV, "
+                 "lib.toml:6:1: entry 'LX1612', key 'vos.max': expected vos in volts (2mV, 500uV, "
                  "250µV), found '3mA'", id="bad-unit"),
     pytest.param(HEAD + 'tcvos = "5uV"\n',
-                 "lib.toml:5: entry 'LX1612', key 'tcvos': expected tcvos in volts per °C "
+                 "lib.toml:5:1: entry 'LX1612', key 'tcvos': expected tcvos in volts per °C "
                  "(5uV/°C), found '5uV'", id="drift-without-per-degree"),
     pytest.param(HEAD + '\nvos = { typ = "2mV", max = "1mV" }\n',
-                 "lib.toml:6: entry 'LX1612', key 'vos': max (1 mV) is below typ (2 mV)",
+                 "lib.toml:6:1: entry 'LX1612', key 'vos': max (1 mV) is below typ (2 mV)",
                  id="max-below-typ"),
     pytest.param('[parts."LX1612"]\ninput = "bjt"\n',
-                 "lib.toml:2: entry 'LX1612', key 'input': expected bipolar | "
+                 "lib.toml:2:1: entry 'LX1612', key 'input': expected bipolar | "
                  "bipolar-compensated | jfet | cmos | chopper, found 'bjt'", id="input-type"),
     pytest.param(HEAD + 't_hot = 20\n',
-                 "lib.toml:5: entry 'LX1612', key 't_hot': expected a temperature in °C above "
-                 "25 (like 85), found 20", id="t-hot"),
+                 "lib.toml:5:1: entry 'LX1612', key 't_hot': expected a temperature in °C above "
+                 "25 and at most 1000 (like 85), found 20", id="t-hot"),
     pytest.param(HEAD + 'aliases = "LX1612A"\n',
-                 "lib.toml:5: entry 'LX1612', key 'aliases': expected a list of part numbers, "
+                 "lib.toml:5:1: entry 'LX1612', key 'aliases': expected a list of part numbers, "
                  "found 'LX1612A'", id="aliases-not-a-list"),
     pytest.param(HEAD + '\n[parts."LX1613"]\naliases = ["lx1612"]\n',
-                 "lib.toml:7: entry 'LX1613', key 'aliases': 'lx1612' already names entry "
+                 "lib.toml:7:1: entry 'LX1613', key 'aliases': 'lx1612' already names entry "
                  "'LX1612' (each name or alias must be unique)", id="alias-taken"),
     pytest.param('title = "x"\n' + HEAD,
-                 "lib.toml:1: unknown top-level key 'title' (expected [parts.\"NAME\"] tables)",
+                 "lib.toml:1:1: unknown top-level key 'title' (expected [parts.\"NAME\"] tables)",
                  id="top-level-key"),
     pytest.param(HEAD + 'ib_either_sign = "yes"\n',
-                 "lib.toml:5: entry 'LX1612', key 'ib_either_sign': expected true or false, "
+                 "lib.toml:5:1: entry 'LX1612', key 'ib_either_sign': expected true or false, "
                  "found 'yes'", id="either-sign"),
 ])
 def test_validation_names_file_line_entry_and_key(tmp_path, monkeypatch, text, message):

@@ -7,7 +7,11 @@ hypothesis draws random drawings and random motions.
 
 from __future__ import annotations
 
-from hypothesis import given, settings
+import json
+import os
+import tempfile
+
+from hypothesis import example, given, settings
 from hypothesis import strategies as st
 
 from schemcheck.circuit.connectivity import build_netlist
@@ -94,3 +98,61 @@ def test_rigid_motion_keeps_netlist(drawing, angle, mirror, dx, dy):
     before = netlist_of(render(parts, pairs, labels))
     after = netlist_of(render(parts, pairs, labels, angle, mirror, dx * 2.54, dy * 2.54 + 200))
     assert before == after
+
+
+# --- every JSON report is strict JSON --------------------------------------------------
+# Outside source: RFC 8259 §6 ("Numeric values that cannot be represented ... such as
+# Infinity and NaN are not permitted"); the reports are parsed by json.loads refusing
+# both. Field and resistor values are drawn from the trade's notation and from the
+# values that broke the tool before (overflowing, subnormal, NaN, infinite).
+
+_VALUES = st.one_of(
+    st.sampled_from(["1e-300", "1e300", "1e308", "0", "1" * 30, "1e999", "nan", "inf", "-1mV",
+                     "±1e-20A", "1fV", "1e-320", "9" * 400, "1e-3", "3", "120dB", "0.1"]),
+    st.floats(allow_nan=True, allow_infinity=True).map(repr),
+    st.tuples(st.floats(min_value=1e-30, max_value=1e30), st.sampled_from(["", "m", "u", "n",
+                                                                              "p", "k", "M"]),
+              st.sampled_from(["V", "A", "", "V/°C"])).map(lambda t: f"{t[0]:g}{t[1]}{t[2]}"))
+_RESISTORS = st.sampled_from(["10k", "1e-300", "1e300", "0R", "1e-320", "DNP", "1", "1G",
+                              "4k7", "1e308"])
+
+
+def _strict(text: str):
+    def refuse(name):
+        raise ValueError(f"{name} is not JSON")
+
+    return json.loads(text, parse_constant=refuse)
+
+
+@settings(max_examples=40, deadline=None, database=None)
+# the values that reached a report as NaN or Infinity before, always tried
+@example({"Aol": "1e999"}, "10k", "100k", "9k1", "20")
+@example({"T_hot": "nan", "Ib_hot": "1uA"}, "10k", "100k", "9k1", "20")
+@example({"T_hot": "inf"}, "1e-300", "1e300", "1e308", "2000")
+@given(st.dictionaries(st.sampled_from(["Vos", "Ib", "Ios", "TCVos", "Ib_hot", "Ios_hot", "T_hot",
+                                        "Aol", "DC_Budget"]), _VALUES),
+       _RESISTORS, _RESISTORS, _RESISTORS, st.sampled_from(["0", "20", "2000"]))
+def test_every_json_report_is_strict(fields, ri, rf, rp, samples):
+    from click.testing import CliRunner
+
+    from schemcheck.cli import main
+
+    from .make_demo import stage
+
+    sheet = Sheet(project="strict", seed=9)
+    stage(sheet, 76.2, 76.2, ref="U1", unit=1, value="OPX", ri=ri, rf=rf, rp=rp, fields=fields)
+    stage(sheet, 152.4, 76.2, ref="U1", unit=2, value="OPX", fields=fields, in_label="OUT",
+          out_label="OUT2", refs=("R4", "R5", "R6"))
+    with tempfile.TemporaryDirectory() as folder:
+        path = os.path.join(folder, "strict.kicad_sch")
+        with open(path, "w", encoding="utf-8") as handle:
+            handle.write(sheet.text())
+        for fmt in ("json", "sarif"):
+            result = CliRunner().invoke(main, ["audit", path, "--no-cache", "--samples", samples,
+                                               "--format", fmt])
+            assert result.exception is None or isinstance(result.exception, SystemExit)
+            assert result.exit_code in (0, 1, 2)
+            report = _strict(result.stdout)
+            if fmt == "json":
+                for design in report["designs"]:
+                    assert all(isinstance(s["params"]["source"], dict) for s in design["stages"])

@@ -140,3 +140,44 @@ def test_cosmetic_look_alikes_inside_strings_are_kept():
     text = '(kicad_sch (label "see (effects (font x)) here" (at 1 2 0) (effects (font))))'
     assert sexpr.parse(text, drop_cosmetic=True) == [
         "kicad_sch", ["label", "see (effects (font x)) here", ["at", 1, 2, 0]]]
+
+
+@pytest.mark.parametrize("path", CORPUS_ALL + FIXTURE_FILES,
+                         ids=corpus_ids(CORPUS_ALL) + [p.name for p in FIXTURE_FILES])
+def test_tokenizing_in_pieces_gives_the_same_tree(path, monkeypatch):
+    # Outside source: the exact path (kiutils' grammar restated) on the whole text. With
+    # pieces of a few hundred characters every kind of cut happens: inside strings,
+    # inside cosmetic lists, between a bare word and its '('.
+    text = read_text(path)
+    whole = sexpr._parse_exact(text, False, None)
+    monkeypatch.setattr(sexpr, "CHUNK_CHARS", 397)
+    assert sexpr.parse(text) == whole
+    assert sexpr.parse(text, drop_cosmetic=True) == sexpr.without_cosmetic(whole)
+
+
+def test_nesting_limit_stops_after_the_first_piece(monkeypatch):
+    pieces = []
+    real = sexpr._chunks
+
+    def counted(text, token_re):
+        for tokens in real(text, token_re):
+            pieces.append(len(tokens))
+            yield tokens
+
+    monkeypatch.setattr(sexpr, "_chunks", counted)
+    text = "(kicad_sch " + "(" * (4 * sexpr.CHUNK_CHARS)
+    with pytest.raises(ParseError, match="expected at most 256 nested lists") as caught:
+        sexpr.parse(text, file="deep.kicad_sch", drop_cosmetic=True)
+    assert (caught.value.line, caught.value.column) == (1, 11 + 256)  # "(kicad_sch " + 256
+    assert len(pieces) == 1  # of the four pieces, only the first was tokenized
+
+
+@pytest.mark.parametrize("number", ["1" * 400, "-" + "9" * 309, "1" * 320 + ".5"])
+def test_numbers_too_large_for_a_double_are_located(number):
+    # Outside source: IEEE 754 binary64 holds at most about 1.8e308 (float("1"*400) is inf)
+    text = f"(kicad_sch\n  (wire (pts (xy {number} 0) (xy 1 2)))\n)"
+    with pytest.raises(ParseError) as caught:
+        sexpr.parse(text, file="n.kicad_sch")
+    assert (caught.value.line, caught.value.column) == (2, 18)  # after "  (wire (pts (xy "
+    assert caught.value.message == (f"expected a number, found one of {len(number)} digits, too "
+                                    "large to store")

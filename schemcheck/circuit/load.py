@@ -44,9 +44,10 @@ def _load(name: str) -> Netlist:
         design = load_design(name, text)
         check_cycles(design)
         netlist = build_netlist(design)
-        if design.problems:
+        if design.problems or design.warnings:
             netlist = dataclasses.replace(
-                netlist, errors=tuple(str(p) for p in design.problems))
+                netlist, errors=tuple(str(p) for p in design.problems),
+                warnings=tuple(design.warnings) + netlist.warnings)
         return netlist
     if kind == "kicad_net":
         from schemcheck.io.netlist import read_sexpr_netlist

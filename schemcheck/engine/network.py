@@ -896,7 +896,7 @@ def _place_opamps(netlist: Netlist, pin_net: dict[tuple[str, str], str],
             problems.append(f"{ref}: an input pin of unit {unit.part.unit} is on no net; the "
                             "stage is not analysed")
             continue
-        plus, minus, out = (canon(n) for n in ends if n)
+        plus, minus, out = (canon(n) for n in ends)
         if (fixed.get(plus) == "rail" and fixed.get(minus) == "rail" and loads.get(out, 0) <= 1):
             unused.append(unit)  # the usual tie-off of a spare amplifier
             continue

@@ -21,6 +21,7 @@ Temperature model (``at_temperature``):
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
@@ -29,7 +30,7 @@ from schemcheck.engine.partmatch import Ambiguity, Match, PartsLibrary, match_pa
 from schemcheck.model import Part
 from schemcheck.partdata import FIGURES, parse_figure
 from schemcheck.partdata import INPUT_TYPES as _INPUT_TYPES
-from schemcheck.units import ValueFormatError, parse_gain
+from schemcheck.units import HOTTEST_C, ValueFormatError, parse_gain
 
 FET_INPUTS = ("jfet", "cmos", "fet", "mosfet")
 INPUT_TYPES = tuple(_INPUT_TYPES)
@@ -110,6 +111,19 @@ def _input_type(text: str, where: str) -> str:
     return kind
 
 
+def _hot_temperature(text: str, where: str) -> float:
+    """``T_hot`` in °C: above 25 °C (hot values are interpolated from 25 °C to it) and at
+    most :data:`HOTTEST_C`."""
+    try:
+        value = float(text.replace("°C", "").strip())
+    except ValueError:
+        raise ParameterError(f"{where}: expected a temperature in °C, found {text!r}") from None
+    if not (math.isfinite(value) and 25.0 < value <= HOTTEST_C):
+        raise ParameterError(f"{where}: expected a temperature above 25 °C and at most "
+                             f"{HOTTEST_C:g} °C, found {text!r}")
+    return value
+
+
 def from_library(entry_name: str, entry: Mapping[str, Any],
                  match: Match | None = None) -> OpampParams:
     """Parameters of one parts-library entry (``[parts."NAME"]`` table, as read and
@@ -150,7 +164,7 @@ def from_library(entry_name: str, entry: Mapping[str, Any],
             raise ParameterError(f"{where}: {error}") from None
         source["aol"] = label
     if entry.get("t_hot", "") != "":
-        values["t_hot"] = float(entry["t_hot"])
+        values["t_hot"] = _hot_temperature(str(entry["t_hot"]), f"{where}: t_hot")
         source["t_hot"] = label
     if "ib_either_sign" in entry:
         either = bool(entry["ib_either_sign"])
@@ -211,11 +225,7 @@ def resolve(part: Part, library: PartsLibrary | Mapping[str, Mapping[str, Any]] 
         source["aol"] = "field"
     text = part.field("T_hot")
     if text is not None and text.strip():
-        try:
-            changes["t_hot"] = float(text.replace("°C", "").strip())
-        except ValueError:
-            raise ParameterError(f"field T_hot of {part.ref}: expected a temperature in °C, "
-                                 f"found {text!r}") from None
+        changes["t_hot"] = _hot_temperature(text, f"field T_hot of {part.ref}")
         source["t_hot"] = "field"
     params = replace(params, **changes, ib_either_sign=either, source=source,
                      typical_only=tuple(typical_only))
@@ -276,13 +286,16 @@ def _current_at(at25: float | None, hot: float | None, t_hot: float, temp: float
         return None
     if temp <= 25.0:
         return at25
-    if hot is not None and t_hot > 25.0 and hot > 0 and at25 > 0:
-        fraction = (temp - 25.0) / (t_hot - 25.0)
+    try:
+        if hot is not None and t_hot > 25.0 and hot > 0 and at25 > 0:
+            fraction = (temp - 25.0) / (t_hot - 25.0)
+            if fet:
+                return at25 * (hot / at25) ** fraction
+            return at25 + (hot - at25) * fraction
         if fet:
-            return at25 * (hot / at25) ** fraction
-        return at25 + (hot - at25) * fraction
-    if fet:
-        return at25 * 2.0 ** ((temp - 25.0) / FET_DOUBLING_C)
+            return at25 * 2.0 ** ((temp - 25.0) / FET_DOUBLING_C)
+    except OverflowError:  # extrapolated far beyond T_hot: no finite figure
+        return math.inf
     return at25
 
 

@@ -10,7 +10,8 @@ import os
 import re
 from dataclasses import dataclass
 
-from schemcheck.errors import ParseError
+from schemcheck.errors import ParseError, SchemcheckError
+from schemcheck.io.files import check_allowed, read_bytes, regular_file
 
 _SHEETFILE = re.compile(rb'\(property\s+"Sheet ?file"\s+"((?:[^"\\]|\\.)*)"')
 DESIGN_SUFFIXES = (".kicad_sch", ".net", ".xml")
@@ -24,19 +25,25 @@ class DesignRef:
     files: tuple[str, ...]
 
 
-def referenced_sheets(path: str) -> list[str]:
-    """Child sheet files named in ``path`` (resolved beside it), by a quick text scan."""
+def _references(path: str) -> list[tuple[str, str]]:
+    """(name as written, path resolved beside ``path``) of every child sheet file named
+    in ``path``, by a quick text scan. A file that cannot be read (not a regular file,
+    too large, outside the confinement) names none: its own audit reports why."""
     try:
-        with open(path, "rb") as handle:
-            data = handle.read()
-    except OSError:
+        data = read_bytes(path)
+    except SchemcheckError:
         return []
     base = os.path.dirname(os.path.abspath(path))
     out = []
     for match in _SHEETFILE.finditer(data):
-        name = match.group(1).decode("utf-8", "replace").replace("\\\\", "\\").replace("\\", "/")
-        out.append(os.path.normpath(os.path.join(base, name)))
+        written = match.group(1).decode("utf-8", "replace").replace("\\\\", "\\")
+        out.append((written, os.path.normpath(os.path.join(base, written.replace("\\", "/")))))
     return out
+
+
+def referenced_sheets(path: str) -> list[str]:
+    """Child sheet files named in ``path`` (resolved beside it), by a quick text scan."""
+    return [resolved for _, resolved in _references(path)]
 
 
 def design_files(root: str) -> tuple[str, ...]:
@@ -47,7 +54,10 @@ def design_files(root: str) -> tuple[str, ...]:
     seen = [root]
     pending = [root]
     while pending:
-        for child in referenced_sheets(pending.pop()):
+        parent = pending.pop()
+        for written, child in _references(parent):
+            # refused before it is looked at when the run is confined (the service)
+            check_allowed(child, "child sheet file", reference=written, file=parent)
             if child not in seen and os.path.isfile(child):
                 seen.append(child)
                 pending.append(child)
@@ -63,6 +73,11 @@ def find_designs(paths: list[str]) -> tuple[list[DesignRef], list[ParseError]]:
             roots.append(os.path.normpath(os.path.abspath(path)))
         elif os.path.isdir(path):
             roots.extend(_roots_in_folder(path))
+        elif os.path.exists(path):  # a device, FIFO or socket: say what it is
+            try:
+                regular_file(path, "design file or a folder")
+            except ParseError as error:
+                problems.append(error)
         else:
             problems.append(ParseError("expected a design file or a folder, found nothing "
                                        "(no such file or folder)", file=path))
@@ -81,7 +96,21 @@ def _roots_in_folder(folder: str) -> list[str]:
                 sheets.append(full)
             elif name.endswith(".kicad_pro"):
                 projects.add(full[: -len(".kicad_pro")] + ".kicad_sch")
-    referenced: set[str] = set()
-    for sheet in sheets:
-        referenced.update(referenced_sheets(sheet))
-    return [s for s in sheets if s not in referenced or s in projects]
+    children = {sheet: referenced_sheets(sheet) for sheet in sheets}
+    referenced = {child for named in children.values() for child in named}
+    roots = {s for s in sheets if s not in referenced or s in projects}
+    # Sheets no root reaches form loops (A -> B -> A, a sheet placing itself). Each loop
+    # is audited through its first sheet, whose audit names the loop, instead of the
+    # folder silently holding no design.
+    reached: set[str] = set()
+    for sheet in [s for s in sheets if s in roots] + sheets:
+        if sheet in reached:
+            continue
+        roots.add(sheet)
+        pending = [sheet]
+        while pending:
+            current = pending.pop()
+            if current not in reached:
+                reached.add(current)
+                pending.extend(c for c in children.get(current, ()) if c not in reached)
+    return [s for s in sheets if s in roots]

@@ -42,6 +42,19 @@ def _number(node: list[Any], i: int, path: tuple[int, ...], what: str) -> float:
                             f"found {value!r}")
 
 
+#: Larger than any sheet the editor draws on; beyond it a position would overflow the
+#: integer grid of :mod:`schemcheck.drawing`.
+MAX_COORDINATE_MM = 1_000_000.0
+
+
+def _coordinate(node: list[Any], i: int, path: tuple[int, ...], what: str) -> float:
+    value = _number(node, i, path, what)
+    if not -MAX_COORDINATE_MM <= value <= MAX_COORDINATE_MM:
+        raise _Bad(path + (i,), f"expected {what} within ±{MAX_COORDINATE_MM:.0f} mm in "
+                                f"'({node[0]} ...)', found {value:g}")
+    return value
+
+
 def _text(node: list[Any], i: int, path: tuple[int, ...], what: str) -> str:
     if len(node) <= i or isinstance(node[i], list):
         raise _Bad(path, f"expected a text value for {what} in '({node[0]} ...)'")
@@ -59,8 +72,8 @@ def _key(x: float, y: float) -> Point:
 
 
 def _at(node: list[Any], path: tuple[int, ...]) -> tuple[float, float, float]:
-    x = _number(node, 1, path, "X")
-    y = _number(node, 2, path, "Y")
+    x = _coordinate(node, 1, path, "X")
+    y = _coordinate(node, 2, path, "Y")
     angle = node[3] if len(node) > 3 else 0
     if not (angle.__class__ is int or angle.__class__ is float):
         raise _Bad(path + (3,), f"expected a number for the angle in '(at ...)', found {angle!r}")
@@ -152,7 +165,7 @@ def _read_tree(tree: list[Any], file: str) -> SheetFile:
 def _wire(item: list[Any], path: tuple[int, ...]) -> tuple[Point, Point]:
     for head, sub, where in _lists(item, path):
         if head == "pts":
-            points = [_key(_number(xy, 1, at, "X"), _number(xy, 2, at, "Y"))
+            points = [_key(_coordinate(xy, 1, at, "X"), _coordinate(xy, 2, at, "Y"))
                       for xy_head, xy, at in _lists(sub, where) if xy_head == "xy"]
             if len(points) != 2:
                 raise _Bad(where, "expected two points '(xy X Y)' in a wire's '(pts ...)'")
@@ -267,7 +280,7 @@ def _instance_entry(entry: list[Any], where: tuple[int, ...]) -> dict[str, Any]:
     for head, sub, at in _lists(entry, where, 2):
         if head == "unit":
             fields["unit"] = int(_number(sub, 1, at, "the unit"))
-        elif head in fields:
+        elif head.__class__ is str and head in fields:
             fields[head] = _text(sub, 1, at, head)
     return fields
 

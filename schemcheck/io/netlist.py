@@ -52,6 +52,19 @@ def _assemble(comps: list[_Comp], libparts: dict[tuple[str, str], _LibPart],
               version: str) -> Netlist:
     parts = []
     warnings = []
+    seen_refs: set[str] = set()
+    for comp in comps:
+        if comp.ref in seen_refs:
+            warnings.append(f"{source}: reference {comp.ref} names two components; the "
+                            "netlist cannot tell their pins apart (annotate the design and "
+                            "export it again)")
+        seen_refs.add(comp.ref)
+    seen_nets: set[str] = set()
+    for name, _ in nets:
+        if name in seen_nets:
+            warnings.append(f"{source}: net name {name!r} is used by two nets; the audit "
+                            "joins them into one (export the netlist again)")
+        seen_nets.add(name)
     for comp in comps:
         lib = libparts.get((comp.lib, comp.part))
         if lib is None:
@@ -169,6 +182,18 @@ def read_sexpr_netlist(text: str, file: str) -> Netlist:
 # XML form
 
 
+def _xml_position(data: bytes | str, marks: tuple[bytes, ...], skip: int = 0) -> tuple[int, int]:
+    """Line and column of the ``skip``-th match of the first of the patterns ``marks``
+    that matches ``data`` (for messages only; 1, 1 when none does)."""
+    raw = data.encode("utf-8") if isinstance(data, str) else data
+    for mark in marks:
+        found = list(re.finditer(mark, raw))
+        if len(found) > skip:
+            at = found[skip].start()
+            return raw.count(b"\n", 0, at) + 1, at - (raw.rfind(b"\n", 0, at) + 1) + 1
+    return 1, 1
+
+
 def read_xml_netlist(data: bytes | str, file: str) -> Netlist:
     """Parse the XML intermediate netlist, refusing entity tricks."""
     import xml.etree.ElementTree as ElementTree
@@ -179,9 +204,10 @@ def read_xml_netlist(data: bytes | str, file: str) -> Netlist:
     try:
         root = SafeTree.fromstring(data, forbid_dtd=True)
     except DefusedXmlException as error:
+        line, column = _xml_position(data, (rb"<!DOCTYPE", rb"<!ENTITY", rb"<!"))
         raise ParseError(f"expected a plain XML netlist, found a forbidden construct "
                          f"({type(error).__name__}: DTDs and entities are refused)",
-                         file=file) from None
+                         file=file, line=line, column=column) from None
     except ElementTree.ParseError as error:
         line, column = error.position
         raise ParseError(f"expected well-formed XML: {error}", file=file, line=line,
@@ -193,10 +219,12 @@ def read_xml_netlist(data: bytes | str, file: str) -> Netlist:
         raise ParseError(f"expected an XML netlist <export version=\"E\">, found <{root.tag}>",
                          file=file, line=1, column=1)
     comps = []
-    for comp in root.iterfind("components/comp"):
+    for number, comp in enumerate(root.iterfind("components/comp")):
         c = _Comp(ref=comp.get("ref", ""), value=comp.findtext("value", ""))
         if not c.ref:
-            raise ParseError("expected a 'ref' attribute on <comp>", file=file)
+            line, column = _xml_position(data, (rb"<comp[\s/>]",), number)
+            raise ParseError("expected a 'ref' attribute on <comp>", file=file, line=line,
+                             column=column)
         libsource = comp.find("libsource")
         if libsource is not None:
             c.lib = libsource.get("lib", "")

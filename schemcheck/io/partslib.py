@@ -24,13 +24,12 @@ from __future__ import annotations
 
 import os
 import re
-import tomllib
 from typing import Any
 
 from schemcheck.errors import ParseError
-from schemcheck.io.files import read_text
+from schemcheck.io.files import read_text, toml_document
 from schemcheck.partdata import ENTRY_KEYS, FIGURES, INPUT_TYPES, LIMIT_KEYS, parse_figure
-from schemcheck.units import ValueFormatError, format_si, parse_gain
+from schemcheck.units import HOTTEST_C, ValueFormatError, format_si, parse_gain
 
 USER_LIBRARY_NAME = "parts.toml"
 
@@ -50,16 +49,11 @@ def load_parts_library(path: str | os.PathLike[str]) -> dict[str, dict[str, Any]
     entry and the key, and what was expected."""
     name = os.fspath(path)
     text = read_text(name)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as error:
-        line, column = _toml_position(str(error))
-        raise ParseError(f"expected a TOML parts library: {error}", file=name, line=line,
-                         column=column) from None
+    data = toml_document(text, name, "a TOML parts library")
     unknown = sorted(set(data) - {"parts"})
     if unknown:
         raise ParseError(f"unknown top-level key {unknown[0]!r} (expected [parts.\"NAME\"] "
-                         "tables)", file=name, line=_key_line(text, None, unknown[0]))
+                         "tables)", file=name, **_where(text, None, unknown[0]))
     parts = data.get("parts", {})
     if not isinstance(parts, dict):
         raise ParseError("expected a [parts] table of entries", file=name)
@@ -67,18 +61,18 @@ def load_parts_library(path: str | os.PathLike[str]) -> dict[str, dict[str, Any]
     for entry_name, entry in parts.items():
         if not isinstance(entry, dict):
             raise ParseError(f"expected [parts.\"{entry_name}\"] to be a table", file=name,
-                             line=_key_line(text, None, entry_name))
+                             **_where(text, None, entry_name))
         problem = entry_problem(entry_name, entry)
         if problem is not None:
             key, message = problem
             raise ParseError(f"entry {entry_name!r}{f', key {key!r}' if key else ''}: {message}",
-                             file=name, line=_key_line(text, entry_name, key))
+                             file=name, **_where(text, entry_name, key))
         for alias in [entry_name, *entry.get("aliases", ())]:
             other = claimed.get(alias.casefold())
             if other is not None and other != entry_name:
                 raise ParseError(f"entry {entry_name!r}, key 'aliases': {alias!r} already names "
                                  f"entry {other!r} (each name or alias must be unique)",
-                                 file=name, line=_key_line(text, entry_name, "aliases"))
+                                 file=name, **_where(text, entry_name, "aliases"))
             claimed[alias.casefold()] = entry_name
     return parts
 
@@ -87,7 +81,7 @@ def entry_problem(entry_name: str, entry: dict[str, Any]) -> tuple[str | None, s
     """The first problem of one entry as (key, message), or None when it is valid."""
     unknown = sorted(set(entry) - set(ENTRY_KEYS))
     if unknown:
-        return None, f"unknown key {unknown[0]!r} (expected one of {', '.join(ENTRY_KEYS)})"
+        return unknown[0], f"unknown key (expected one of {', '.join(ENTRY_KEYS)})"
     for name in FIGURES:
         if name in entry:
             problem = _figure_problem(name, entry[name])
@@ -106,8 +100,9 @@ def entry_problem(entry_name: str, entry: dict[str, Any]) -> tuple[str | None, s
     if "t_hot" in entry:
         value = entry["t_hot"]
         if value != "" and (isinstance(value, bool) or not isinstance(value, (int, float))
-                            or not 25 < value <= 300):
-            return "t_hot", f"expected a temperature in °C above 25 (like 85), found {value!r}"
+                            or not 25 < value <= HOTTEST_C):
+            return "t_hot", (f"expected a temperature in °C above 25 and at most "
+                             f"{HOTTEST_C:g} (like 85), found {value!r}")
     if "aol" in entry and entry["aol"] != "":
         try:
             parse_gain(str(entry["aol"]))
@@ -150,6 +145,15 @@ def _header_pattern(entry_name: str) -> re.Pattern[str]:
                       + quoted + r')\s*\]')
 
 
+def _where(text: str, entry_name: str | None, key: str | None) -> dict[str, int | None]:
+    """``line`` and ``column`` (1-based) of ``key`` in entry ``entry_name``, for an error."""
+    line = _key_line(text, entry_name, key)
+    if line is None:
+        return {"line": None, "column": None}
+    row = text.splitlines()[line - 1]
+    return {"line": line, "column": len(row) - len(row.lstrip()) + 1}
+
+
 def _key_line(text: str, entry_name: str | None, key: str | None) -> int | None:
     """Best-effort line of ``key`` in entry ``entry_name`` (or of the entry's header)."""
     lines = text.splitlines()
@@ -176,6 +180,3 @@ def _key_line(text: str, entry_name: str | None, key: str | None) -> int | None:
     return start + 1 if entry_name is not None else None
 
 
-def _toml_position(message: str) -> tuple[int | None, int | None]:
-    match = re.search(r"line (\d+), column (\d+)", message)
-    return (int(match.group(1)), int(match.group(2))) if match else (None, None)

@@ -21,68 +21,100 @@ Unknown keys are an error that names the key. Command-line options override the 
 
 from __future__ import annotations
 
+import math
 import os
 import re
-import tomllib
 from dataclasses import replace
 from typing import Any
 
 from schemcheck.rules import RULES
 from schemcheck.errors import ParseError
 from schemcheck.settings import Settings
-from schemcheck.units import (ValueFormatError, parse_quantity, parse_resistance,
-                              parse_tolerance, read_resistance)
-from schemcheck.io.files import read_text
+from schemcheck.units import (ValueFormatError, check_temperature_range, parse_quantity,
+                              parse_resistance, parse_tolerance, read_resistance)
+from schemcheck.io.files import (check_allowed, read_text, toml_document, toml_error,
+                                  toml_position)
 
 SETTINGS_NAME = "schemcheck.toml"
+#: The largest Monte Carlo seed (numpy's generators take any whole number >= 0; 64 bits
+#: is what TOML can write).
+MAX_SEED = 2**63 - 1
 _KEYS = ("temperature_range", "default_budget", "default_tolerance", "parts_library",
          "rules_off", "monte_carlo_samples", "seed", "source_resistance", "estimate_missing",
          "values", "value_notation")
 
 
+def _finite_number(value: Any) -> bool:
+    """A TOML integer or float that is finite as a double (a 400-digit integer is not)."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return False
+    try:
+        return math.isfinite(float(value))
+    except OverflowError:
+        return False
+
+
 def find_settings(design_root: str) -> str | None:
-    """The settings file beside ``design_root``, if there is one."""
+    """The settings file beside ``design_root``, if there is one (anything by that name
+    that is not a folder: reading it says what it is when it is not a regular file)."""
     candidate = os.path.join(os.path.dirname(os.path.abspath(design_root)), SETTINGS_NAME)
-    return candidate if os.path.isfile(candidate) else None
+    check_allowed(candidate, "settings file")  # a link out of the confinement is refused
+    return candidate if os.path.exists(candidate) and not os.path.isdir(candidate) else None
 
 
 def load_settings(path: str, base: Settings | None = None) -> Settings:
     """``base`` (or the defaults) with the values of the settings file at ``path``."""
     text = read_text(path)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as error:
-        raise ParseError(f"expected a TOML settings file: {error}", file=path) from None
-    return apply_settings(data, path, base or Settings())
+    data = toml_document(text, path, "a TOML settings file")
+    return apply_settings(data, path, base or Settings(), text)
 
 
-def apply_settings(data: dict[str, Any], path: str, base: Settings) -> Settings:
+def apply_settings(data: dict[str, Any], path: str, base: Settings,
+                   text: str | None = None) -> Settings:
+    """``base`` with the values of ``data`` (the settings file at ``path``, whose ``text``
+    locates an error's line and column when given)."""
+
+    def located(message: str, key: str) -> ParseError:
+        if text is None:
+            return ParseError(message, file=path)
+        return toml_error(message, path, text, (), key)
+
     def bad(key: str, expected: str) -> ParseError:
-        return ParseError(f"key {key!r}: expected {expected}, found {data[key]!r}", file=path)
+        shown = repr(data[key])
+        shown = shown if len(shown) <= 80 else shown[:77] + "..."
+        return located(f"key {key!r}: expected {expected}, found {shown}", key)
 
     unknown = sorted(set(data) - set(_KEYS))
     if unknown:
-        raise ParseError(f"unknown key {unknown[0]!r} (expected one of {', '.join(_KEYS)})",
-                         file=path)
+        raise located(f"unknown key {unknown[0]!r} (expected one of {', '.join(_KEYS)})",
+                      unknown[0])
     changes: dict[str, Any] = {}
     given = set(base.given)
     if "temperature_range" in data:
         value = data["temperature_range"]
         if (not isinstance(value, list) or len(value) != 2
-                or not all(isinstance(v, (int, float)) for v in value) or value[0] > value[1]):
-            raise bad("temperature_range", "[MIN, MAX] in °C with MIN <= MAX")
+                or not all(_finite_number(v) for v in value)):
+            raise bad("temperature_range", "[MIN, MAX] in °C, two finite numbers")
+        try:
+            check_temperature_range(float(value[0]), float(value[1]), repr(value))
+        except ValueFormatError as error:
+            raise located(f"key 'temperature_range': {error}", "temperature_range") from None
         changes["temp_range"] = (float(value[0]), float(value[1]))
         given.add("temp_range")
+    current = ""
     try:
         if "default_budget" in data:
+            current = "default_budget"
             changes["default_budget"] = abs(parse_quantity(str(data["default_budget"]), "volt",
                                                            what="default_budget").value)
             given.add("default_budget")
         if "default_tolerance" in data:
+            current = "default_tolerance"
             changes["default_tolerance"] = parse_tolerance(str(data["default_tolerance"]),
                                                            "default_tolerance")
             given.add("default_tolerance")
         if "source_resistance" in data:
+            current = "source_resistance"
             table = data["source_resistance"]
             if not isinstance(table, dict):
                 raise bad("source_resistance", "a table of NET = \"ohms\"")
@@ -98,20 +130,23 @@ def apply_settings(data: dict[str, Any], path: str, base: Settings) -> Settings:
         if "value_notation" in data:
             changes["value_notations"] = _notations(data["value_notation"], bad)
     except ValueFormatError as error:
-        raise ParseError(str(error), file=path) from None
+        raise located(str(error), current) from None
     if "parts_library" in data:
         if not isinstance(data["parts_library"], str):
             raise bad("parts_library", "a file path")
         changes["parts_library"] = os.path.join(os.path.dirname(os.path.abspath(path)),
                                                 data["parts_library"])
+        where = toml_position(text, (), "parts_library") if text is not None else None
+        changes["parts_library_named_at"] = (path, *where) if where else None
     if "rules_off" in data:
         rules = data["rules_off"]
-        if not isinstance(rules, list) or any(r not in RULES for r in rules):
+        if not isinstance(rules, list) or any(not isinstance(r, str) or r not in RULES
+                                              for r in rules):
             raise bad("rules_off", f"a list of rule ids ({', '.join(RULES)})")
         changes["disabled_rules"] = tuple(rules)
     if "monte_carlo_samples" in data:
         value = data["monte_carlo_samples"]
-        if not isinstance(value, int) or not 0 <= value <= 1_000_000:
+        if isinstance(value, bool) or not isinstance(value, int) or not 0 <= value <= 1_000_000:
             raise bad("monte_carlo_samples", "a whole number from 0 to 1000000")
         changes["mc_samples"] = value
     if "estimate_missing" in data:
@@ -119,9 +154,10 @@ def apply_settings(data: dict[str, Any], path: str, base: Settings) -> Settings:
             raise bad("estimate_missing", "true or false")
         changes["estimate_missing"] = data["estimate_missing"]
     if "seed" in data:
-        if not isinstance(data["seed"], int):
-            raise bad("seed", "a whole number")
-        changes["seed"] = data["seed"]
+        seed = data["seed"]
+        if isinstance(seed, bool) or not isinstance(seed, int) or not 0 <= seed <= MAX_SEED:
+            raise bad("seed", f"a whole number from 0 to {MAX_SEED}")
+        changes["seed"] = seed
     return replace(base, **changes, given=tuple(sorted(given)))
 
 

@@ -19,13 +19,18 @@ close a string, unbalanced brackets, and in compat mode an escaped backslash). T
 path also produces the error messages.
 
 Unlike kiutils, malformed input raises :class:`~schemcheck.errors.ParseError` with line,
-column and what was expected (kiutils raises a bare ``AssertionError``), and nesting
-depth is bounded so no later recursive walk can overflow the stack.
+column and what was expected (kiutils raises a bare ``AssertionError``), a number too
+large for a double (kiutils makes it infinite) is refused, and nesting depth is bounded
+so no later recursive walk can overflow the stack. Both paths stop at the first list
+nested too deeply: the fast path tokenizes a large file a few MB at a time, the exact
+path one token at a time, so a file of millions of ``(`` costs what its first few MB
+cost.
 """
 
 from __future__ import annotations
 
 import gc
+import math
 import re
 from contextlib import contextmanager
 from typing import Any, Iterator
@@ -60,8 +65,14 @@ def _unescape(body: str) -> str:
     return _ESCAPE_RE.sub(lambda m: _ESCAPES.get(m.group(1), m.group(0)), body)
 
 
+class _NotFinite(Exception):
+    """Internal: a number token too large for a double; the exact path locates it."""
+
+
 def _number(token: str) -> int | float:
     value = float(token)
+    if not math.isfinite(value):
+        raise _NotFinite(token)
     return int(value) if value.is_integer() else value
 
 
@@ -110,8 +121,14 @@ def parse(text: str, *, compat: bool = False, file: str | None = None,
     column.
     """
     with collector_paused():
-        tree = _parse_fast(text, compat,
-                           _FAST_TOKEN_NO_COSMETIC if drop_cosmetic else _FAST_TOKEN)
+        token_re = _FAST_TOKEN_NO_COSMETIC if drop_cosmetic else _FAST_TOKEN
+        try:
+            tree = _parse_fast(text, compat, token_re)
+        except _NotFinite:
+            tree = None
+        if tree is not None and drop_cosmetic and len(text) > CHUNK_CHARS:
+            # a cosmetic list cut by a chunk boundary was tokenized as ordinary lists
+            tree = without_cosmetic(tree)
         if tree is None:
             tree = _parse_exact(text, compat, file)
             if drop_cosmetic:
@@ -154,6 +171,27 @@ def collector_paused() -> Iterator[None]:
             gc.enable()
 
 
+#: The fast path tokenizes this many characters at a time (more in one piece: up to the
+#: next bracket or line end), so that a deeply nested file is refused after its first
+#: piece; a schematic of a few MB is one piece.
+CHUNK_CHARS = 4 * 1024 * 1024
+_BOUNDARY = re.compile(r"[\n()]")
+
+
+def _chunks(text: str, token_re: re.Pattern[str]) -> Iterator[list[str]]:
+    """The tokens of ``text``, a piece at a time. A piece ends just after a bracket or a
+    line end, where no token but a string or a cosmetic list can continue: a cut string
+    leaves a lone quote (the fast path bails out), a cut cosmetic list is tokenized as
+    ordinary lists (and dropped afterwards by :func:`parse`)."""
+    start, size = 0, len(text)
+    while start < size:
+        found = _BOUNDARY.search(text, start + CHUNK_CHARS) if size - start > CHUNK_CHARS \
+            else None
+        end = found.end() if found else size
+        yield token_re.findall(text, start, end)
+        start = end
+
+
 def _parse_fast(text: str, compat: bool, token_re: re.Pattern[str]) -> list[Any] | None:
     """The tree, or None where the exact path must decide (odd or malformed input)."""
     if "^" in text or (compat and "\\\\" in text):
@@ -165,40 +203,41 @@ def _parse_fast(text: str, compat: bool, token_re: re.Pattern[str]) -> list[Any]
     pop = stack.pop
     memo: dict[str, Any] = {}
     recall = memo.get
-    for token in token_re.findall(text):
-        if token == "(":
-            push(out)
-            out = []
-            if len(stack) > MAX_DEPTH:
-                return None
-            continue
-        if token == ")":
-            if not stack:
-                return None
-            parent = pop()
-            parent.append(out)
-            out = parent
-            continue
-        first = token[0]
-        if first == '"':
-            if len(token) == 1:
-                return None
-            body = token[1:-1]
-            out.append(unescape(body) if "\\" in body else body)
-        elif first == "(":
-            continue  # a whole cosmetic block, dropped on request
-        else:
-            value = recall(token)
-            if value is None:
-                value = memo[token] = _bare(token)
-            if value is _OPENS:
-                out.append(token[:-1])
+    for tokens in _chunks(text, token_re):
+        for token in tokens:
+            if token == "(":
                 push(out)
                 out = []
                 if len(stack) > MAX_DEPTH:
                     return None
+                continue
+            if token == ")":
+                if not stack:
+                    return None
+                parent = pop()
+                parent.append(out)
+                out = parent
+                continue
+            first = token[0]
+            if first == '"':
+                if len(token) == 1:
+                    return None
+                body = token[1:-1]
+                out.append(unescape(body) if "\\" in body else body)
+            elif first == "(":
+                continue  # a whole cosmetic block, dropped on request
             else:
-                out.append(value)
+                value = recall(token)
+                if value is None:
+                    value = memo[token] = _bare(token)
+                if value is _OPENS:
+                    out.append(token[:-1])
+                    push(out)
+                    out = []
+                    if len(stack) > MAX_DEPTH:
+                        return None
+                else:
+                    out.append(value)
     if stack or not out:
         return None
     return out[0]
@@ -210,30 +249,39 @@ def _is_pin_uuid(item: list[Any]) -> bool:
 
 
 def _parse_exact(text: str, compat: bool, file: str | None) -> list[Any]:
+    """kiutils' grammar, one token at a time: stops at the first error, whatever follows."""
     stack: list[list[Any]] = []
     out: list[Any] = []
     token_re = _KIUTILS_TOKEN if compat else _PROPER_TOKEN
-    for lbr, rbr, num, quoted, bare in token_re.findall(text):
-        if lbr:
+    for match in token_re.finditer(text):
+        kind = match.lastindex
+        if kind == 1:
             stack.append(out)
             out = []
             if len(stack) > MAX_DEPTH:
-                _fail_depth(text, file)
-        elif rbr:
+                raise _error_at(text, match.start(1), f"expected at most {MAX_DEPTH} nested "
+                                "lists, found deeper nesting", file)
+        elif kind == 2:
             if not stack:
-                _fail_unbalanced(text, file)
+                raise _error_at(text, match.start(2), "unbalanced ')': no '(' is open here",
+                                file)
             parent = stack.pop()
             parent.append(out)
             out = parent
-        elif num:
-            out.append(_number(num))
-        elif quoted:
-            body = quoted[1:-1]
+        elif kind == 3:
+            try:
+                out.append(_number(match.group(3)))
+            except _NotFinite:
+                digits = len(match.group(3))
+                raise _error_at(text, match.start(3), f"expected a number, found one of "
+                                f"{digits} digits, too large to store", file) from None
+        elif kind == 4:
+            body = match.group(4)[1:-1]
             if "\\" in body:
                 body = body.replace('\\"', '"') if compat else _unescape(body)
             out.append(body)
-        else:
-            out.append(bare)
+        elif kind == 5:
+            out.append(match.group(5))
     if stack:
         _fail_unclosed(text, file)
     if not out:
@@ -266,15 +314,6 @@ def _scan_brackets(text: str):
             yield ")", match.start(2)
 
 
-def _fail_unbalanced(text: str, file: str | None) -> None:
-    depth = 0
-    for kind, offset in _scan_brackets(text):
-        depth += 1 if kind == "(" else -1
-        if depth < 0:
-            raise _error_at(text, offset, "unbalanced ')': no '(' is open here", file)
-    raise ParseError("unbalanced ')'", file=file)  # pragma: no cover - defensive
-
-
 def _fail_unclosed(text: str, file: str | None) -> None:
     open_at: list[int] = []
     for kind, offset in _scan_brackets(text):
@@ -290,16 +329,6 @@ def _fail_unclosed(text: str, file: str | None) -> None:
         head = "(" + (word.group(1) if word else "")
         message += f" ('{head}' opened at line {line}, column {column} is never closed)"
     raise _error_at(text, end, message, file)
-
-
-def _fail_depth(text: str, file: str | None) -> None:
-    depth = 0
-    for kind, offset in _scan_brackets(text):
-        depth += 1 if kind == "(" else -1
-        if depth > MAX_DEPTH:
-            raise _error_at(text, offset, f"expected at most {MAX_DEPTH} nested lists, "
-                            "found deeper nesting", file)
-    raise ParseError("nesting too deep", file=file)  # pragma: no cover - defensive
 
 
 def locate(text: str, path: tuple[int, ...]) -> tuple[int, int, str]:

@@ -14,11 +14,12 @@ from dataclasses import replace
 from typing import TYPE_CHECKING, Any, Callable
 
 from schemcheck import __version__
-from schemcheck.errors import ParseError, SchemcheckError
+from schemcheck.errors import ParseError, PathNotAllowedError, SchemcheckError
 from schemcheck.io.discover import DesignRef, find_designs
 from schemcheck.model import Finding
 from schemcheck.report.json import to_data
 from schemcheck.results import DesignResult, Report, Tool, missing_across
+from schemcheck.run.lifeline import watch_parent
 from schemcheck.settings import Settings
 
 if TYPE_CHECKING:
@@ -41,6 +42,8 @@ def settings_for(root: str, base: Settings, overrides: dict[str, Any],
         user = user_library_path()
         if os.path.isfile(user):
             overrides["user_parts_library"] = user
+    if "parts_library" in overrides:  # the option's library, not the file's
+        overrides["parts_library_named_at"] = None
     return replace(settings, **overrides, given=tuple(sorted(given)))
 
 
@@ -52,7 +55,7 @@ def design_key_for(design: DesignRef, settings: Settings) -> str | None:
     try:
         return design_key(design.files, settings.describe(),
                           [path for _, path in settings.parts_libraries()])
-    except OSError:
+    except (OSError, ParseError):
         return None
 
 
@@ -63,6 +66,8 @@ def submission_key(paths: list[str], overrides: dict[str, Any]) -> str:
     for design in designs:
         try:
             settings = settings_for(design.root, Settings(), dict(overrides))
+        except PathNotAllowedError:
+            raise
         except SchemcheckError:
             settings = Settings()  # the audit itself reports the bad settings file
         digest.update((design_key_for(design, settings) or design.root).encode())
@@ -86,6 +91,7 @@ def read_libraries(root: str, settings: Settings) -> PartsLibrary:
     :class:`schemcheck.engine.partmatch.PartsLibrary`); paths shown relative to the
     design's folder (the user's library as an absolute path)."""
     from schemcheck.engine.partmatch import LibrarySource, PartsLibrary
+    from schemcheck.io.files import regular_file
     from schemcheck.io.partslib import load_parts_library
 
     layers = []
@@ -93,6 +99,7 @@ def read_libraries(root: str, settings: Settings) -> PartsLibrary:
     for origin, path in settings.parts_libraries():
         from schemcheck.run.cache import file_digest
 
+        regular_file(path, "parts library")  # never a device, a FIFO or a folder
         stamp = file_digest(path)
         cached = _LIBRARIES.get(path)
         if cached is None or cached[0] != stamp:
@@ -110,6 +117,16 @@ def audit_one(root: str, settings: Settings) -> dict[str, Any]:
     try:
         library = read_libraries(root, settings)
         return to_data(audit_netlist(load_netlist(root), settings, library))
+    except PathNotAllowedError:
+        raise  # the service answers 403: nothing of the design is reported
+    except ParseError as error:
+        named = settings.parts_library_named_at
+        shown = error
+        if named and error.file == settings.parts_library and error.line is None:
+            # the library itself is missing or not a file: point at the line naming it
+            shown = ParseError(f"parts_library {settings.parts_library!r}: {error.message}",
+                               file=named[0], line=named[1], column=named[2])
+        return _unreadable(root, str(shown), settings)
     except SchemcheckError as error:
         detail = str(error)
         return _unreadable(root, detail, settings)
@@ -139,6 +156,8 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
         try:
             settings = settings_for(design.root, base or Settings(), dict(overrides or {}),
                                     settings_path)
+        except PathNotAllowedError:
+            raise
         except SchemcheckError as error:
             results[index] = _unreadable(design.root, str(error))
             continue
@@ -159,7 +178,9 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
         outputs = (audit_one(d.root, s) for _, d, s, _ in todo)
         pool = None
     else:
-        pool = ProcessPoolExecutor(max_workers=workers)
+        # each worker ends itself when this process dies, even by SIGKILL
+        pool = ProcessPoolExecutor(max_workers=workers, initializer=watch_parent,
+                                   initargs=(os.getpid(),))
         outputs = pool.map(_audit_task, [(d.root, s) for _, d, s, _ in todo], chunksize=1)
     try:
         for (index, design, _, key), result in zip(todo, outputs):

@@ -17,6 +17,7 @@ from typing import Any
 
 from schemcheck import __version__
 from schemcheck.errors import SchemcheckError
+from schemcheck.io.files import check_allowed, read_bytes
 
 APP = "schemcheck-results"
 SCHEMA = 1
@@ -29,11 +30,9 @@ def default_path() -> str:
 
 
 def file_digest(path: str) -> str:
-    digest = hashlib.sha256()
-    with open(path, "rb") as handle:
-        for block in iter(lambda: handle.read(1 << 20), b""):
-            digest.update(block)
-    return digest.hexdigest()
+    """SHA-256 of a file's content: a regular file within the size limit (checked before
+    reading), else :class:`~schemcheck.errors.ParseError`."""
+    return hashlib.sha256(read_bytes(path)).hexdigest()
 
 
 def design_key(files: tuple[str, ...], settings: dict[str, Any],
@@ -56,11 +55,47 @@ def design_key(files: tuple[str, ...], settings: dict[str, Any],
         digest.update(os.path.relpath(path, base).encode() + b"\0")
         digest.update(file_digest(path).encode())
     for path in libraries:
+        check_allowed(path, "parts library")  # refused unread when the run is confined
         if os.path.isfile(path):
             digest.update(b"library\0" + file_digest(path).encode())
         else:
             digest.update(b"no library\0" + path.encode())
     return digest.hexdigest()
+
+
+def _refuse_constant(name: str) -> Any:
+    raise ValueError(f"found {name}, which JSON does not have")
+
+
+def strict_json(text: str) -> Any:
+    """``json.loads`` refusing NaN and Infinity (not JSON, though Python writes them)."""
+    return json.loads(text, parse_constant=_refuse_constant)
+
+
+_SEVERITIES = ("info", "warning", "error")
+
+
+def result_problem(result: Any) -> str | None:
+    """What makes ``result`` not one design's audit result (as ``audit_one`` returns
+    it), or None. Checks the keys and types the report writers rely on."""
+    if not isinstance(result, dict):
+        return f"expected an object, found {type(result).__name__}"
+    for key, kind in (("file", str), ("stages", list), ("findings", list),
+                      ("assumptions", list), ("not_analysed", list), ("settings", dict),
+                      ("errors", list)):
+        if not isinstance(result.get(key), kind):
+            return f"expected {key!r} to be a {kind.__name__}"
+    for finding in result["findings"]:
+        if not isinstance(finding, dict) or finding.get("severity") not in _SEVERITIES:
+            return "expected findings with a severity of info, warning or error"
+        if not all(isinstance(finding.get(k), str) for k in ("rule", "ref", "message")):
+            return "expected findings with a rule, a ref and a message"
+    for stage in result["stages"]:
+        if not isinstance(stage, dict) or not isinstance(stage.get("ref"), str):
+            return "expected stages with a ref"
+    if not all(isinstance(e, str) for e in result["errors"] + result["assumptions"]):
+        return "expected errors and assumptions as text"
+    return None
 
 
 class ResultCache:
@@ -133,14 +168,20 @@ class ResultCache:
     def get(self, key: str) -> dict[str, Any] | None:
         try:
             row = self.db.execute("SELECT result FROM results WHERE key = ?", (key,)).fetchone()
-            return json.loads(row[0]) if row else None
-        except (sqlite3.DatabaseError, ValueError) as error:
+            if not row:
+                return None
+            result = strict_json(row[0])
+            problem = result_problem(result)
+            if problem:
+                raise ValueError(f"not an audit result: {problem}")
+            return result
+        except (sqlite3.DatabaseError, ValueError, TypeError) as error:
             self.warnings.append(f"{self.path}: could not read a cached result ({error}); "
                                  "re-auditing")
             return None
 
     def put(self, key: str, root: str, result: dict[str, Any]) -> None:
-        text = json.dumps(result, sort_keys=True)
+        text = json.dumps(result, sort_keys=True, allow_nan=False)
         with self.db:  # one transaction per design
             self.db.execute("INSERT OR REPLACE INTO results VALUES (?, ?, ?, ?)",
                             (key, root, time.time(), text))
