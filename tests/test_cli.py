@@ -115,3 +115,26 @@ def test_whole_process_no_traceback(tmp_path):
 def test_every_command_help_has_example(command):
     code, out, _ = run(command, "--help")
     assert code == 0 and "Example:" in out and "schemcheck " in out
+
+
+def test_non_numeric_coordinate_in_a_property_is_malformed(tmp_path):
+    # Guards: junk where the schematic editor reads a number, in a list the connectivity
+    # never reads (a property's position), is exit 2 with file, line and column, as the
+    # editor refuses such a file (KiCad's file-format documentation: '(at X Y ANGLE)'
+    # holds numbers). The position is counted in the text written here.
+    from .synth import Sheet
+
+    sheet = Sheet(project="junk", seed=6)
+    sheet.place("Device:R", "R1", "10k", 50.8, 50.8)
+    text = sheet.text()
+    before = '(property "Value" "10k"\n\t\t\t(at '
+    at = text.index(before) + len(before)
+    text = text[:at] + "zero" + text[text.index(" ", at):]
+    path = tmp_path / "junk.kicad_sch"
+    path.write_text(text, encoding="utf-8")
+    line, column = text.count("\n", 0, at) + 1, at - text.rfind("\n", 0, at)
+    for command in ("netlist", "audit"):
+        code, out, err = run(command, path, *(("--no-cache",) if command == "audit" else ()))
+        assert code == 2 and "Traceback" not in err
+        assert f"{path}:{line}:{column}: expected a number for X in '(at ...)', found 'zero'" \
+            in err
