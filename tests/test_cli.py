@@ -117,6 +117,35 @@ def test_every_command_help_has_example(command):
     assert code == 0 and "Example:" in out and "schemcheck " in out
 
 
+def test_drawn_follower_through_a_resistor_is_audited(tmp_path):
+    # Guards: a unity follower fed through a resistor (its parameters known) is audited,
+    # not a traceback with exit status 1. Expected finding: as in test_checks.py (common
+    # practice: R from the output to the - input equal to what the + input sees).
+    from .make_demo import DUAL
+    from .synth import Sheet
+
+    sheet = Sheet(project="follower", seed=4)
+    x, y = 101.6, 76.2
+    u = sheet.place(DUAL, "U1", "OPX", x, y, mirror="x", unit=1,
+                    fields={"Vos": "1mV", "Ib": "80nA", "Ios": "10nA", "Input": "bipolar"})
+    sheet.path(u.pin("1"), (x + 12.7, y), (x + 12.7, y - 12.7), (x - 12.7, y - 12.7),
+               (x - 12.7, y - 2.54), u.pin("2"))
+    r = sheet.place("Device:R", "R1", "10k", x - 20.32, y + 2.54, angle=90)
+    sheet.wire(r.pin("2"), u.pin("3"))
+    sheet.label("IN", r.pin("1"), kind="global_label")
+    sheet.label("OUT", u.pin("1"), kind="global_label")
+    path = tmp_path / "follower.kicad_sch"
+    path.write_text(sheet.text(), encoding="utf-8")
+    code, out, err = run("audit", path, "--no-cache", "--samples", "0")
+    assert (code, err) == (0, "")  # one warning, below the default --fail-on error
+    (design,) = json.loads(out)["designs"]
+    assert design["stages"][0]["topology"] == "buffer"
+    assert [(f["rule"], f["suggestion"]) for f in design["findings"]] == [
+        ("bias-resistor-mismatch", "add 10 kΩ (E96 10 kΩ, E24 10 kΩ) between the output and "
+                                   "the - input (the buffer's gain stays 1) so both inputs "
+                                   "see the same resistance")]
+
+
 def test_non_numeric_coordinate_in_a_property_is_malformed(tmp_path):
     # Guards: junk where the schematic editor reads a number, in a list the connectivity
     # never reads (a property's position), is exit 2 with file, line and column, as the
