@@ -22,6 +22,7 @@ from schemcheck.run.batch import audit_paths, exit_status
 from schemcheck.run.cache import ResultCache
 from schemcheck.cli import main
 
+from .conftest import FIXTURES
 from .make_demo import stage
 from .synth import Sheet
 
@@ -185,3 +186,81 @@ def test_unknown_settings_key_is_named(tmp_path):
     error = report["designs"][0]["errors"][0]
     assert error.startswith(str(tmp_path / "schemcheck.toml"))
     assert "unknown key 'temprange'" in error
+
+
+# --- Regressions: one resolver, the cache, folders, one design's failure -------------------
+
+
+def stage_sheet(vos: str, seed: int = 5, rp: str = "9k1") -> str:
+    sheet = Sheet(project="fallback", seed=seed)
+    stage(sheet, 76.2, 76.2, ref="U1", unit=1, value="OPX", rp=rp,
+          fields={"Vos": vos, "Ib": "20nA", "Ios": "2nA"})
+    return sheet.text()
+
+
+def fallback_design(folder, vos: str = "1mV"):
+    """root.kicad_sch places sub/a.kicad_sch, which places b.kicad_sch: there is no
+    sub/b.kicad_sch, so the reader finds b relative to the root's folder."""
+    (folder / "sub").mkdir(parents=True, exist_ok=True)
+    root = Sheet(project="fallback", seed=1)
+    root.sheet("A", "sub/a.kicad_sch", 100, 50, [])
+    (folder / "root.kicad_sch").write_text(root.text(), encoding="utf-8")
+    middle = Sheet(project="fallback", seed=2)
+    middle.sheet("B", "b.kicad_sch", 100, 50, [])
+    (folder / "sub" / "a.kicad_sch").write_text(middle.text(), encoding="utf-8")
+    (folder / "b.kicad_sch").write_text(stage_sheet(vos), encoding="utf-8")
+    return folder / "root.kicad_sch"
+
+
+def test_cache_sees_an_edit_of_a_child_found_through_the_root_folder(tmp_path):
+    # Guards: the cache key covers every sheet the reader reads, a child found through
+    # the root folder included; an edit of it (Vos 1 mV -> 7 mV) is audited afresh.
+    # Expected Vos: the value written in the edited file.
+    design = tmp_path / "design"
+    root = fallback_design(design, vos="1mV")
+    cache = ResultCache(str(tmp_path / "results.sqlite3"))
+    first = audit_paths([str(root)], overrides={"mc_samples": 0}, jobs=1, cache=cache)
+    assert first["designs"][0]["stages"][0]["params"]["vos"] == pytest.approx(1e-3)
+    fallback_design(design, vos="7mV")
+    second = audit_paths([str(root)], overrides={"mc_samples": 0}, jobs=1, cache=cache)
+    cache.close()
+    assert second["designs"][0]["stages"][0]["params"]["vos"] == pytest.approx(7e-3)
+    # and the child is audited once, through its root, not as a design of its own
+    third = audit_paths([str(design)], overrides={"mc_samples": 0}, jobs=1)
+    assert [os.path.basename(d["file"]) for d in third["designs"]] == ["root.kicad_sch"]
+
+
+def test_service_key_follows_an_edit_of_a_child_found_through_the_root_folder(tmp_path):
+    # Guards: the service's identical-submission key covers the same files.
+    from schemcheck.run.batch import submission_key
+
+    root = fallback_design(tmp_path, vos="1mV")
+    before = submission_key([str(root)], {})
+    fallback_design(tmp_path, vos="7mV")
+    assert submission_key([str(root)], {}) != before
+
+
+def test_folder_of_exported_netlists_is_audited(tmp_path):
+    # Guards: `audit FOLDER` reads the editor's exported netlists (.net, .xml) too; a
+    # netlist beside the schematic it was exported from is not audited twice.
+    netlists = FIXTURES / "reader" / "netlists"
+    (tmp_path / "small.net").write_bytes((netlists / "small.net").read_bytes())
+    (tmp_path / "other.xml").write_bytes((netlists / "small.xml").read_bytes())
+    (tmp_path / "notes.xml").write_text("<notes>not a netlist</notes>\n", encoding="utf-8")
+    (tmp_path / "board").mkdir()
+    (tmp_path / "board" / "board.kicad_sch").write_text(_design(3), encoding="utf-8")
+    (tmp_path / "board" / "board.net").write_bytes((netlists / "small.net").read_bytes())
+    report = audit_paths([str(tmp_path)], overrides={"mc_samples": 0}, jobs=1)
+    files = sorted(os.path.relpath(d["file"], tmp_path) for d in report["designs"])
+    assert files == [os.path.join("board", "board.kicad_sch"), "other.xml", "small.net"]
+    assert all(not d["errors"] for d in report["designs"])
+
+
+def test_folder_without_a_design_is_an_error(tmp_path):
+    # Guards: a folder holding no design at all is exit 2 with a message, not a silent 0.
+    (tmp_path / "README.txt").write_text("nothing to audit\n", encoding="utf-8")
+    result = CliRunner().invoke(main, ["audit", str(tmp_path), "--no-cache"])
+    assert result.exit_code == 2
+    assert result.stderr == (
+        f"Error: {tmp_path}: expected a KiCad schematic (.kicad_sch) or a netlist exported by "
+        "the schematic editor (.net, .xml) in this folder or below it, found none\n")

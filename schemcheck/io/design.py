@@ -13,10 +13,11 @@ from schemcheck.io import sexpr
 from schemcheck.io.files import read_text
 from schemcheck.drawing import Design
 from schemcheck.io.kicad_sch import read_sheet
+from schemcheck.io.resolve import child_sheet, normalised
 
 
 def _key(path: str) -> str:
-    return os.path.normcase(os.path.abspath(path))
+    return normalised(path)
 
 
 def load_design(path: str | os.PathLike[str], text: str | None = None) -> Design:
@@ -35,7 +36,7 @@ def load_design(path: str | os.PathLike[str], text: str | None = None) -> Design
         parent = pending.pop()
         parent_dir = os.path.dirname(os.path.abspath(parent.path))
         for sheet in parent.sheets:
-            child_path = _resolve(sheet.file, parent_dir, root_dir)
+            child_path = child_sheet(sheet.file, parent_dir, root_dir)
             link = (_key(parent.path), sheet.index)
             if child_path is None:
                 line, column, snippet = sexpr.locate(parent.text, (sheet.index,))
@@ -58,16 +59,6 @@ def load_design(path: str | os.PathLike[str], text: str | None = None) -> Design
             design.sheets[key] = child
             pending.append(child)
     return design
-
-
-def _resolve(name: str, parent_dir: str, root_dir: str) -> str | None:
-    """A child sheet path, relative to its parent's folder or else to the root's."""
-    name = name.replace("\\", "/")
-    for base in (parent_dir, root_dir):
-        candidate = os.path.join(base, name)
-        if os.path.isfile(candidate):
-            return candidate
-    return None
 
 
 def check_cycles(design: Design) -> None:

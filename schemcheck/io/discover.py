@@ -1,19 +1,21 @@
 """Find the designs under the paths a user gives: files, project folders, folders of
-many projects (recursing). A design is a root sheet and every child sheet it uses; the
-root is the sheet no other sheet references, or the one a ``.kicad_pro`` beside it
-names (same stem). Child sheets are audited once, through their root.
+many projects (recursing). A design is a root sheet and every child sheet it uses (as
+:mod:`schemcheck.io.resolve` decides), or a netlist exported by the schematic editor;
+the root is the sheet no other sheet references, or the one a ``.kicad_pro`` beside it
+names (same stem). Child sheets are audited once, through their root; a netlist beside
+a schematic of the same stem is its export, not audited twice.
 """
 
 from __future__ import annotations
 
 import os
-import re
 from dataclasses import dataclass
 
 from schemcheck.errors import ParseError
+from schemcheck.io.resolve import child_sheet, normalised, sheet_files, sheet_names
 
-_SHEETFILE = re.compile(rb'\(property\s+"Sheet ?file"\s+"((?:[^"\\]|\\.)*)"')
 DESIGN_SUFFIXES = (".kicad_sch", ".net", ".xml")
+NETLIST_SUFFIXES = (".net", ".xml")
 
 
 @dataclass(frozen=True, slots=True)
@@ -25,44 +27,39 @@ class DesignRef:
 
 
 def referenced_sheets(path: str) -> list[str]:
-    """Child sheet files named in ``path`` (resolved beside it), by a quick text scan."""
+    """Child sheet files named in ``path`` that exist, resolved as the reader resolves
+    them (:func:`schemcheck.io.resolve.child_sheet`), the sheet taken as a root."""
     try:
         with open(path, "rb") as handle:
             data = handle.read()
     except OSError:
         return []
-    base = os.path.dirname(os.path.abspath(path))
-    out = []
-    for match in _SHEETFILE.finditer(data):
-        name = match.group(1).decode("utf-8", "replace").replace("\\\\", "\\").replace("\\", "/")
-        out.append(os.path.normpath(os.path.join(base, name)))
-    return out
+    base = os.path.dirname(normalised(path))
+    found = (child_sheet(name, base, base) for name in sheet_names(data))
+    return [child for child in found if child is not None]
 
 
 def design_files(root: str) -> tuple[str, ...]:
-    """The root and, recursively, the child sheets it references (existing ones)."""
-    root = os.path.normpath(os.path.abspath(root))
-    if not root.endswith(".kicad_sch"):
-        return (root,)
-    seen = [root]
-    pending = [root]
-    while pending:
-        for child in referenced_sheets(pending.pop()):
-            if child not in seen and os.path.isfile(child):
-                seen.append(child)
-                pending.append(child)
-    return tuple(seen)
+    """The root and, recursively, the child sheets it uses (existing ones)."""
+    return sheet_files(root)
 
 
 def find_designs(paths: list[str]) -> tuple[list[DesignRef], list[ParseError]]:
-    """Designs under ``paths`` (sorted, each once) and the paths that do not exist."""
+    """Designs under ``paths`` (sorted, each once) and the paths that hold none: a path
+    that does not exist, or a folder with no schematic or exported netlist in it."""
     problems: list[ParseError] = []
     roots: list[str] = []
     for path in paths:
         if os.path.isfile(path):
-            roots.append(os.path.normpath(os.path.abspath(path)))
+            roots.append(normalised(path))
         elif os.path.isdir(path):
-            roots.extend(_roots_in_folder(path))
+            found = _roots_in_folder(path)
+            if not found:
+                problems.append(ParseError(
+                    "expected a KiCad schematic (.kicad_sch) or a netlist exported by the "
+                    "schematic editor (.net, .xml) in this folder or below it, found none",
+                    file=path))
+            roots.extend(found)
         else:
             problems.append(ParseError("expected a design file or a folder, found nothing "
                                        "(no such file or folder)", file=path))
@@ -70,18 +67,46 @@ def find_designs(paths: list[str]) -> tuple[list[DesignRef], list[ParseError]]:
     return [DesignRef(root, design_files(root)) for root in unique], problems
 
 
+def is_exported_netlist(path: str) -> bool:
+    """Whether ``path`` starts like a netlist the schematic editor exports: ``(export``
+    (S-expression ``.net``) or an XML document whose root is ``<export``."""
+    try:
+        with open(path, "rb") as handle:
+            head = handle.read(4096)
+    except OSError:
+        return False
+    head = head.removeprefix(b"\xef\xbb\xbf").lstrip()
+    if path.endswith(".net"):
+        return head.startswith(b"(export")
+    return head.startswith(b"<") and b"<export" in head
+
+
 def _roots_in_folder(folder: str) -> list[str]:
+    """Root sheets and exported netlists under ``folder``, in folder order. A netlist
+    beside a schematic of the same name is that schematic's export: not audited twice."""
+    found: list[str] = []
     sheets: list[str] = []
     projects: set[str] = set()
     for directory, subdirs, files in os.walk(folder):
         subdirs[:] = sorted(d for d in subdirs if not d.startswith("."))
+        schematics = {name for name in files if name.endswith(".kicad_sch")}
         for name in sorted(files):
-            full = os.path.normpath(os.path.abspath(os.path.join(directory, name)))
+            full = normalised(os.path.join(directory, name))
             if name.endswith(".kicad_sch"):
                 sheets.append(full)
+                found.append(full)
             elif name.endswith(".kicad_pro"):
                 projects.add(full[: -len(".kicad_pro")] + ".kicad_sch")
+            elif name.endswith(NETLIST_SUFFIXES):
+                exported_from = os.path.splitext(name)[0] + ".kicad_sch"
+                if exported_from not in schematics and is_exported_netlist(full):
+                    found.append(full)
     referenced: set[str] = set()
     for sheet in sheets:
         referenced.update(referenced_sheets(sheet))
-    return [s for s in sheets if s not in referenced or s in projects]
+    candidates = {s for s in sheets if s not in referenced or s in projects}
+    # A child found only through its root's folder is part of that root's design too.
+    used = {child for root in candidates for child in sheet_files(root)[1:]}
+    roots = {s for s in candidates if s not in used or s in projects}
+    return [f for f in found if f in roots or not f.endswith(".kicad_sch")]
+

@@ -15,7 +15,6 @@ Unknown keys are an error that names the key. Command-line options override the 
 
 from __future__ import annotations
 
-import os
 import tomllib
 from dataclasses import replace
 from typing import Any
@@ -25,16 +24,15 @@ from schemcheck.errors import ParseError
 from schemcheck.run.settings import Settings
 from schemcheck.units import ValueFormatError, parse_quantity, parse_resistance, parse_tolerance
 from schemcheck.io.files import read_text
+from schemcheck.io.resolve import library_path, settings_file
 
-SETTINGS_NAME = "schemcheck.toml"
 _KEYS = ("temperature_range", "default_budget", "default_tolerance", "parts_library",
          "rules_off", "monte_carlo_samples", "seed", "source_resistance")
 
 
 def find_settings(design_root: str) -> str | None:
     """The settings file beside ``design_root``, if there is one."""
-    candidate = os.path.join(os.path.dirname(os.path.abspath(design_root)), SETTINGS_NAME)
-    return candidate if os.path.isfile(candidate) else None
+    return settings_file(design_root)
 
 
 def load_settings(path: str, base: Settings | None = None) -> Settings:
@@ -89,8 +87,7 @@ def apply_settings(data: dict[str, Any], path: str, base: Settings) -> Settings:
     if "parts_library" in data:
         if not isinstance(data["parts_library"], str):
             raise bad("parts_library", "a file path")
-        changes["parts_library"] = os.path.join(os.path.dirname(os.path.abspath(path)),
-                                                data["parts_library"])
+        changes["parts_library"] = library_path(path, data["parts_library"])
     if "rules_off" in data:
         rules = data["rules_off"]
         if not isinstance(rules, list) or any(r not in RULES for r in rules):

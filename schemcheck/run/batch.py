@@ -25,9 +25,10 @@ UNREADABLE = "unreadable-design"
 def settings_for(root: str, base: Settings, overrides: dict[str, Any],
                  settings_path: str | None = None) -> Settings:
     """Defaults < the settings file beside the design (or ``settings_path``) < options."""
-    from schemcheck.io.settings_file import find_settings, load_settings
+    from schemcheck.io.resolve import settings_file
+    from schemcheck.io.settings_file import load_settings
 
-    path = settings_path or find_settings(root)
+    path = settings_file(root, settings_path)
     settings = load_settings(path, base) if path else base
     given = set(settings.given) | set(overrides.pop("given", ()))
     return replace(settings, **overrides, given=tuple(sorted(given)))
