@@ -40,7 +40,7 @@ class AuditStore:
         with self.lock, self.cache.db:
             self.cache.db.execute("INSERT INTO audits VALUES (?, ?, ?, ?, ?)",
                                   (record["id"], key, name, record["created"],
-                                   json.dumps(result, sort_keys=True)))
+                                   json.dumps(result)))
         return record
 
     def recent(self, limit: int) -> list[dict[str, Any]]:

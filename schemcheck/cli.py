@@ -140,9 +140,12 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
                                      seed=seed)
     cache = None
     if not no_cache:
-        from schemcheck.run.cache import ResultCache
+        from schemcheck.run.cache import CacheUnavailable, ResultCache
 
-        cache = ResultCache(cache_file)
+        try:
+            cache = ResultCache(cache_file)
+        except CacheUnavailable as error:
+            click.echo(f"Warning: {error}; auditing without the results cache", err=True)
     try:
         report = audit_paths(list(paths), overrides=overrides, settings_path=settings_path,
                              jobs=jobs, cache=cache, progress=Progress())

@@ -99,7 +99,8 @@ def test_cache_returns_identical_results_and_reaudits_changes(library, tmp_path)
     first = audit_paths([str(library)], overrides=overrides, jobs=1, cache=cache)
     second = audit_paths([str(library)], overrides=overrides, jobs=1, cache=cache)
     assert second["designs"] == first["designs"]
-    assert second["stats"] == {"designs": GOOD + 4, "from_cache": GOOD + 1, "audited": 3}
+    assert second["stats"] == {"designs": GOOD + 4}
+    assert second["run"] == {"from_cache": GOOD + 1, "audited": 3}
     changed = library / "project03" / "board03.kicad_sch"
     original = changed.read_text(encoding="utf-8")
     try:
@@ -108,9 +109,9 @@ def test_cache_returns_identical_results_and_reaudits_changes(library, tmp_path)
         third = audit_paths([str(library)], overrides=overrides, jobs=1, cache=cache)
     finally:
         changed.write_text(original, encoding="utf-8")
-    assert third["stats"]["audited"] == 4
+    assert third["run"]["audited"] == 4
     other = audit_paths([str(library)], overrides={"mc_samples": 100}, jobs=1, cache=cache)
-    assert other["stats"]["from_cache"] == 0  # settings are part of the key
+    assert other["run"]["from_cache"] == 0  # settings are part of the key
     cache.close()
 
 
@@ -240,6 +241,53 @@ def test_service_key_follows_an_edit_of_a_child_found_through_the_root_folder(tm
     assert submission_key([str(root)], {}) != before
 
 
+def copied_designs(folder):
+    """One hierarchical design (a bias-resistor mismatch in its child sheet) copied into
+    two revision folders, byte for byte."""
+    for rev in ("rev1", "rev2"):
+        (folder / rev).mkdir(parents=True)
+        top = Sheet(project="board", seed=11)
+        top.sheet("Amp", "amp.kicad_sch", 100, 50, [])
+        (folder / rev / "board.kicad_sch").write_text(top.text(), encoding="utf-8")
+        (folder / rev / "amp.kicad_sch").write_text(stage_sheet("1mV", rp="22k"),
+                                                      encoding="utf-8")
+
+
+@pytest.mark.parametrize("fmt", ["json", "markdown", "sarif"])
+def test_warm_run_is_byte_identical_for_copied_designs(tmp_path, monkeypatch, fmt):
+    # Guards: cached results are path-independent and put back where each design lies,
+    # so a warm run gives the cold run's bytes, and neither copy hides the other.
+    # Expected: the cold run itself (no cache involved in what it reports).
+    copied_designs(tmp_path / "designs")
+    monkeypatch.chdir(tmp_path)
+    command = ["audit", "designs", "--format", fmt, "--samples", "0", "--jobs", "1",
+               "--cache-file", str(tmp_path / f"{fmt}.sqlite3")]
+    cold = CliRunner().invoke(main, command)
+    warm = CliRunner().invoke(main, command)
+    assert cold.exit_code == warm.exit_code == 0  # a warning only
+    assert warm.stdout_bytes == cold.stdout_bytes
+    children = {os.path.join("designs", rev, "amp.kicad_sch") for rev in ("rev1", "rev2")}
+    if fmt == "json":
+        designs = json.loads(cold.stdout)["designs"]
+        assert {d["file"] for d in designs} == {
+            os.path.join("designs", rev, "board.kicad_sch") for rev in ("rev1", "rev2")}
+        assert {f["file"] for d in designs for f in d["findings"]} == children
+    elif fmt == "sarif":
+        results = json.loads(cold.stdout)["runs"][0]["results"]
+        assert {r["locations"][0]["physicalLocation"]["artifactLocation"]["uri"]
+                for r in results} == {c.replace(os.sep, "/") for c in children}
+
+
+def test_cached_result_keeps_no_path_of_the_design(tmp_path):
+    # Guards: what the cache stores names no folder of the design it came from.
+    copied_designs(tmp_path)
+    cache = ResultCache(str(tmp_path / "results.sqlite3"))
+    audit_paths([str(tmp_path / "rev1")], overrides={"mc_samples": 0}, jobs=1, cache=cache)
+    (stored,) = [row[0] for row in cache.db.execute("SELECT result FROM results")]
+    cache.close()
+    assert str(tmp_path) not in stored
+
+
 def test_folder_of_exported_netlists_is_audited(tmp_path):
     # Guards: `audit FOLDER` reads the editor's exported netlists (.net, .xml) too; a
     # netlist beside the schematic it was exported from is not audited twice.
@@ -264,3 +312,38 @@ def test_folder_without_a_design_is_an_error(tmp_path):
     assert result.stderr == (
         f"Error: {tmp_path}: expected a KiCad schematic (.kicad_sch) or a netlist exported by "
         "the schematic editor (.net, .xml) in this folder or below it, found none\n")
+
+
+def test_unwritable_cache_folder_falls_back_to_no_cache(library, tmp_path):
+    # Guards: a cache that cannot be created is one warning line, and the audit still runs
+    # (exit status from the findings, not 1 from a traceback).
+    blocker = tmp_path / "not-a-folder"
+    blocker.write_text("a file where the cache folder should be\n", encoding="utf-8")
+    cache_file = blocker / "results.sqlite3"
+    result = CliRunner().invoke(main, ["audit", str(library / "project01"), "--samples", "0",
+                                       "--cache-file", str(cache_file)])
+    assert result.exit_code == 0
+    assert "Traceback" not in result.output
+    assert result.stderr.count("\n") == 1
+    assert result.stderr.startswith(f"Warning: {cache_file}: cannot create the results "
+                                    "database's folder (")
+    assert result.stderr.endswith("; auditing without the results cache\n")
+    assert len(json.loads(result.stdout)["designs"][0]["stages"]) == 1
+
+
+def test_cache_that_stops_taking_writes_is_said_once(library, tmp_path):
+    # Guards: a database that refuses writes mid-run (opened read-only here, as a full
+    # disk or a read-only file would) costs one warning, not the run.
+    import sqlite3
+
+    path = tmp_path / "results.sqlite3"
+    ResultCache(str(path)).close()
+    cache = ResultCache(str(path))
+    cache.db.close()
+    cache.db = sqlite3.connect(f"file:{path}?mode=ro", uri=True, isolation_level=None)
+    report = audit_paths([str(library / "project01"), str(library / "project02")],
+                         overrides={"mc_samples": 0}, jobs=1, cache=cache)
+    cache.close()
+    assert [len(d["stages"]) for d in report["designs"]] == [1, 1]
+    (warning,) = report["warnings"]
+    assert warning.startswith(f"{path}: could not store results (")

@@ -167,3 +167,15 @@ def test_non_numeric_coordinate_in_a_property_is_malformed(tmp_path):
         assert code == 2 and "Traceback" not in err
         assert f"{path}:{line}:{column}: expected a number for X in '(at ...)', found 'zero'" \
             in err
+
+
+def test_service_store_that_cannot_be_created_is_one_error_line(tmp_path):
+    # Guards: the service's store is its memory: where it cannot be created, `serve`
+    # refuses to start with one line and exit status 2 (no traceback).
+    blocker = tmp_path / "not-a-folder"
+    blocker.write_text("a file where the store's folder should be\n", encoding="utf-8")
+    code, _, err = run("serve", "--store", blocker / "store.sqlite3", "--port", "0")
+    assert code == 2
+    assert err.startswith(f"Error: {blocker / 'store.sqlite3'}: cannot create the results "
+                          "database's folder (")
+    assert err.count("\n") == 1

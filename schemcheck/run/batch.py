@@ -7,6 +7,7 @@ unreadable design becomes a finding on that file and the batch goes on.
 from __future__ import annotations
 
 import hashlib
+import json
 import os
 import sys
 from concurrent.futures import ProcessPoolExecutor
@@ -45,10 +46,18 @@ def design_key_for(design: DesignRef, settings: Settings) -> str | None:
         return None
 
 
-def submission_key(paths: list[str], overrides: dict[str, Any]) -> str:
-    """One key for everything under ``paths`` (the service's identical-submission test)."""
+def submission_key(paths: list[str], overrides: dict[str, Any], *,
+                   located: bool = False) -> str:
+    """One key for everything under ``paths`` (the service's identical-submission test).
+
+    The key is the designs' content, wherever they lie; ``located=True`` adds where they
+    lie, for answers that name the files where they are (a path submission), so two
+    copies of one design in two folders are not answered with each other's paths."""
     designs, _ = find_designs(paths)
     digest = hashlib.sha256()
+    if located:
+        for design in designs:
+            digest.update(design.root.encode() + b"\0")
     for design in designs:
         try:
             settings = settings_for(design.root, Settings(), dict(overrides))
@@ -118,7 +127,7 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
             key = design_key_for(design, settings)
             hit = cache.get(key) if key else None
             if hit is not None:
-                results[index] = hit
+                results[index] = rerooted(hit, design.root, settings)
                 hits += 1
                 continue
         todo.append((index, design, settings, key))
@@ -136,7 +145,9 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
         for (index, design, _, key), result in zip(todo, outputs):
             results[index] = result
             if cache is not None and key and not result["errors"]:
-                cache.put(key, design.root, result)
+                stored = portable(result, design.root)
+                if stored is not None:
+                    cache.put(key, design.root, stored)
             done += 1
             if progress:
                 progress(done, len(designs))
@@ -147,11 +158,50 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
         results.append(_unreadable(error.file or "", str(error)))
     report: dict[str, Any] = {"tool": {"name": "schemcheck", "version": __version__},
                               "designs": [_shown(r) for r in results if r is not None]}
-    report["stats"] = {"designs": len(report["designs"]), "from_cache": hits,
-                       "audited": len(todo)}
+    # What depends on the designs only: a run answered from the cache reports the same.
+    report["stats"] = {"designs": len(report["designs"])}
     if cache is not None and cache.warnings:
         report["warnings"] = list(cache.warnings)
+    # How this run got there (not part of the report's JSON).
+    report["run"] = {"from_cache": hits, "audited": len(todo)}
     return report
+
+
+def portable(result: dict[str, Any], root: str) -> dict[str, Any] | None:
+    """``result`` (of the design rooted at ``root``) in the form the cache keeps: no path
+    of the design's own, file names relative to its folder, no settings (the run's own
+    are put back on read: they are part of the key). None when a path of the design's
+    folder is left in the text (such a result is not stored)."""
+    base = os.path.dirname(root)
+    stored = dict(result)  # same key order: the re-rooted copy dumps byte for byte alike
+    stored["file"] = ""
+    stored["settings"] = {}
+    stored["findings"] = [{**f, "file": os.path.relpath(f["file"], base) if f.get("file")
+                           else ""} for f in result["findings"]]
+    if json.dumps(base + os.sep)[1:-1] in json.dumps(stored):
+        return None
+    return stored
+
+
+def rerooted(stored: dict[str, Any], root: str, settings: Settings) -> dict[str, Any]:
+    """A cached result put back where the design rooted at ``root`` lies, audited with
+    ``settings``: what auditing it afresh gives."""
+    base = os.path.dirname(root)
+    result = dict(stored)
+    result["file"] = root
+    result["settings"] = settings.describe()
+    result["findings"] = [{**f, "file": _under(base, f["file"], root)}
+                          for f in stored["findings"]]
+    return result
+
+
+def _under(base: str, relative: str, root: str) -> str:
+    if not relative:
+        return ""
+    from schemcheck.io.resolve import normalised
+
+    path = normalised(os.path.join(base, relative))
+    return root if path == normalised(root) else path
 
 
 def _display(path: str) -> str:
