@@ -21,6 +21,8 @@ class FindingSchema(Schema):
     suggestion = fields.String()
     sheet = fields.String()
     file = fields.String()
+    line = fields.Integer(allow_none=True, metadata={"description": "1-based line in file"})
+    column = fields.Integer(allow_none=True, metadata={"description": "1-based column"})
 
 
 class SensitivitySchema(Schema):

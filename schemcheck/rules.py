@@ -56,6 +56,12 @@ _RULES = (
          "A design file could not be read: a malformed or unsupported file, or a missing "
          "child sheet; the rest of the batch is still audited.",
          "A design the tool cannot read has not been checked at all."),
+    Rule("audit-failed", "error", "Design whose audit stopped on an internal error",
+         "The audit of a design stopped on an unexpected error of the tool (not of the "
+         "design's files): that design is reported unchecked, the rest of the batch is still "
+         "audited.",
+         "A design the tool could not finish auditing has not been checked at all; the error "
+         "is the tool's to fix, and the file shows how to reproduce it."),
 )
 
 RULES: dict[str, Rule] = {rule.id: rule for rule in _RULES}

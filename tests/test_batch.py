@@ -288,6 +288,57 @@ def test_cached_result_keeps_no_path_of_the_design(tmp_path):
     assert str(tmp_path) not in stored
 
 
+@pytest.mark.parametrize("jobs", ["1", "2"], ids=["in-process", "worker-processes"])
+def test_unexpected_error_in_one_design_is_that_designs_error(library, monkeypatch, jobs):
+    # Guards: an error that is not the input's fault, inside one design's audit, becomes
+    # that design's error (exit 2, the file named); the batch goes on.
+    import multiprocessing
+
+    import schemcheck.audit
+
+    if jobs != "1" and multiprocessing.get_start_method() != "fork":
+        pytest.skip("worker processes see the replaced function only when forked")
+
+    real = schemcheck.audit.audit_netlist
+
+    def failing(netlist, *args, **kwargs):
+        if netlist.source.endswith("board07.kicad_sch"):
+            raise ZeroDivisionError("float division by zero")
+        return real(netlist, *args, **kwargs)
+
+    monkeypatch.setattr(schemcheck.audit, "audit_netlist", failing)
+    result = CliRunner().invoke(main, ["audit", str(library / "project07"),
+                                       str(library / "project08"), "--no-cache", "--jobs", jobs,
+                                       "--samples", "0"])
+    assert result.exit_code == 2
+    assert "Traceback" not in result.output
+    designs = {os.path.basename(d["file"]): d for d in json.loads(result.stdout)["designs"]}
+    assert len(designs["board08.kicad_sch"]["stages"]) == 1
+    failed = designs["board07.kicad_sch"]
+    assert [f["rule"] for f in failed["findings"]] == ["audit-failed"]
+    assert failed["errors"][0].startswith(str(library / "project07" / "board07.kicad_sch"))
+    assert "ZeroDivisionError: float division by zero" in failed["errors"][0]
+    assert "board07.kicad_sch" in result.stderr
+
+
+def test_worker_process_lost_is_that_designs_error(library):
+    # Guards: a worker process that dies while auditing one design loses that design
+    # only (the pool's error is turned into the design's error).
+    from concurrent.futures.process import BrokenProcessPool
+
+    from schemcheck.run.batch import _outcome
+    from schemcheck.run.settings import Settings
+
+    class Lost:
+        def result(self):
+            raise BrokenProcessPool("a child process terminated abruptly")
+
+    root = str(library / "project01" / "board01.kicad_sch")
+    result = _outcome(Lost(), root, Settings())
+    assert result["findings"][0]["rule"] == "audit-failed" and result["errors"]
+    assert result["errors"][0].startswith(root)
+
+
 def test_folder_of_exported_netlists_is_audited(tmp_path):
     # Guards: `audit FOLDER` reads the editor's exported netlists (.net, .xml) too; a
     # netlist beside the schematic it was exported from is not audited twice.
@@ -329,6 +380,32 @@ def test_unwritable_cache_folder_falls_back_to_no_cache(library, tmp_path):
                                     "database's folder (")
     assert result.stderr.endswith("; auditing without the results cache\n")
     assert len(json.loads(result.stdout)["designs"][0]["stages"]) == 1
+
+
+def test_broken_child_sheet_finding_points_at_the_sheet(tmp_path, monkeypatch):
+    # Guards: the finding of a child sheet that cannot be read names that sheet's file,
+    # line and column (JSON, and SARIF's region). Expected position: counted in the
+    # text written here.
+    top = Sheet(project="broken", seed=21)
+    top.sheet("Amp", "amp.kicad_sch", 100, 50, [])
+    (tmp_path / "board.kicad_sch").write_text(top.text(), encoding="utf-8")
+    child = stage_sheet("1mV").replace("\t(sheet_instances", "\t(junction (at abc 10))\n"
+                                       "\t(sheet_instances", 1)
+    (tmp_path / "amp.kicad_sch").write_text(child, encoding="utf-8")
+    offset = child.index("abc")
+    line, column = child.count("\n", 0, offset) + 1, offset - child.rfind("\n", 0, offset)
+    monkeypatch.chdir(tmp_path)
+    result = CliRunner().invoke(main, ["audit", "board.kicad_sch", "--no-cache"])
+    assert result.exit_code == 2
+    (finding,) = json.loads(result.stdout)["designs"][0]["findings"]
+    assert (finding["rule"], finding["file"], finding["line"], finding["column"]) == (
+        "unreadable-design", "amp.kicad_sch", line, column)
+    result = CliRunner().invoke(main, ["audit", "board.kicad_sch", "--no-cache", "--format",
+                                       "sarif"])
+    (location,) = json.loads(result.stdout)["runs"][0]["results"][0]["locations"]
+    assert location["physicalLocation"] == {"artifactLocation": {"uri": "amp.kicad_sch"},
+                                            "region": {"startLine": line,
+                                                       "startColumn": column}}
 
 
 def test_cache_that_stops_taking_writes_is_said_once(library, tmp_path):

@@ -10,17 +10,19 @@ import hashlib
 import json
 import os
 import sys
-from concurrent.futures import ProcessPoolExecutor
+import traceback
+from concurrent.futures import Future, ProcessPoolExecutor
 from dataclasses import replace
 from typing import Any, Callable
 
 from schemcheck import __version__
 from schemcheck.audit import CAUTION
-from schemcheck.errors import SchemcheckError
+from schemcheck.errors import ParseError, SchemcheckError
 from schemcheck.io.discover import DesignRef, find_designs
 from schemcheck.run.settings import Settings
 
 UNREADABLE = "unreadable-design"
+AUDIT_FAILED = "audit-failed"
 
 
 def settings_for(root: str, base: Settings, overrides: dict[str, Any],
@@ -67,13 +69,34 @@ def submission_key(paths: list[str], overrides: dict[str, Any], *,
     return digest.hexdigest()
 
 
-def _unreadable(root: str, message: str, settings: Settings | None = None) -> dict[str, Any]:
+def _unreadable(root: str, message: str, settings: Settings | None = None, *,
+                error: SchemcheckError | None = None, rule: str = UNREADABLE,
+                suggestion: str = "fix or re-save the file in the schematic editor"
+                ) -> dict[str, Any]:
+    """The result of a design that could not be audited; the finding points at the file
+    (and line and column) ``error`` names, else at ``root``."""
+    where = error if isinstance(error, ParseError) else None
     return {"file": root, "stages": [], "not_analysed": [], "assumptions": [],
             "settings": (settings or Settings()).describe(), "errors": [message],
             "caution": CAUTION,
-            "findings": [{"rule": UNREADABLE, "severity": "error", "ref": "", "unit": None,
-                          "message": message, "suggestion": "fix or re-save the file in the "
-                          "schematic editor", "sheet": "", "file": root}]}
+            "findings": [{"rule": rule, "severity": "error", "ref": "", "unit": None,
+                          "message": message, "suggestion": suggestion, "sheet": "",
+                          "file": (where.file if where and where.file else root),
+                          "line": where.line if where else None,
+                          "column": where.column if where else None}]}
+
+
+def _failed(root: str, error: BaseException, settings: Settings | None = None
+            ) -> dict[str, Any]:
+    """The result of a design whose audit stopped on an error that is not the input's
+    fault: that design's error, named with the file; the batch goes on."""
+    frames = traceback.extract_tb(error.__traceback__)
+    at = f" at {os.path.basename(frames[-1].filename)}:{frames[-1].lineno}" if frames else ""
+    message = (f"{root}: the audit of this design stopped on an internal error "
+               f"({type(error).__name__}: {error}{at}); the design was not checked")
+    return _unreadable(root, message, settings, rule=AUDIT_FAILED,
+                       suggestion="report this with the design file; the other designs "
+                                  "were audited")
 
 
 _LIBRARIES: dict[str, tuple[float, dict]] = {}
@@ -96,10 +119,11 @@ def audit_one(root: str, settings: Settings) -> dict[str, Any]:
             library = cached[1]
         return audit_netlist(load_netlist(root), settings, library).to_dict()
     except SchemcheckError as error:
-        detail = str(error)
-        return _unreadable(root, detail, settings)
+        return _unreadable(root, str(error), settings, error=error)
     except OSError as error:
         return _unreadable(root, f"{root}: could not read ({error.strerror or error})", settings)
+    except Exception as error:  # noqa: BLE001 - one design's failure must not lose the batch
+        return _failed(root, error, settings)
 
 
 def _audit_task(args: tuple[str, Settings]) -> dict[str, Any]:
@@ -120,7 +144,7 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
             settings = settings_for(design.root, base or Settings(), dict(overrides or {}),
                                     settings_path)
         except SchemcheckError as error:
-            results[index] = _unreadable(design.root, str(error))
+            results[index] = _unreadable(design.root, str(error), error=error)
             continue
         key = None
         if cache is not None:
@@ -135,14 +159,12 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
     if progress:
         progress(done, len(designs))
     workers = max(1, min(jobs or os.cpu_count() or 1, len(todo)))
-    if workers == 1:
-        outputs = (audit_one(d.root, s) for _, d, s, _ in todo)
-        pool = None
-    else:
-        pool = ProcessPoolExecutor(max_workers=workers)
-        outputs = pool.map(_audit_task, [(d.root, s) for _, d, s, _ in todo], chunksize=1)
+    pool = ProcessPoolExecutor(max_workers=workers) if workers > 1 else None
     try:
-        for (index, design, _, key), result in zip(todo, outputs):
+        futures = ([pool.submit(_audit_task, (d.root, s)) for _, d, s, _ in todo]
+                   if pool is not None else [None] * len(todo))
+        for (index, design, settings, key), future in zip(todo, futures):
+            result = _outcome(future, design.root, settings)
             results[index] = result
             if cache is not None and key and not result["errors"]:
                 stored = portable(result, design.root)
@@ -153,9 +175,9 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
                 progress(done, len(designs))
     finally:
         if pool is not None:
-            pool.shutdown()
+            pool.shutdown(cancel_futures=True)  # nothing left to run after an error
     for error in missing:
-        results.append(_unreadable(error.file or "", str(error)))
+        results.append(_unreadable(error.file or "", str(error), error=error))
     report: dict[str, Any] = {"tool": {"name": "schemcheck", "version": __version__},
                               "designs": [_shown(r) for r in results if r is not None]}
     # What depends on the designs only: a run answered from the cache reports the same.
@@ -165,6 +187,17 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
     # How this run got there (not part of the report's JSON).
     report["run"] = {"from_cache": hits, "audited": len(todo)}
     return report
+
+
+def _outcome(future: Future | None, root: str, settings: Settings) -> dict[str, Any]:
+    """One design's result: audited here (``future`` None) or by a worker process. A
+    worker that died, or any error on the way back, is that design's error alone."""
+    if future is None:
+        return audit_one(root, settings)
+    try:
+        return future.result()
+    except Exception as error:  # noqa: BLE001 - a lost worker must not lose the batch
+        return _failed(root, error, settings)
 
 
 def portable(result: dict[str, Any], root: str) -> dict[str, Any] | None:
