@@ -7,14 +7,15 @@ alone against kiutils' ``parse_sexp``. Target: (1) and (2) at least 3x faster.
 
 Then the cost of checking that numeric lists (coordinates, sizes, widths) hold numbers
 only, on this sheet and on the largest corpus sheet where present: the reader and its
-tokenizer call with the check against the same without it (run interleaved, best of
-many, as the machine may be shared). Target: under 5 % for the reader.
+tokenizer call with the check against the same without it (CPU time, the median ratio
+of back-to-back pairs, as the machine may be shared). Target: under 5 % for the reader.
 
 Run: .venv/bin/python benchmarks/bench_netlist.py
 """
 
 from __future__ import annotations
 
+import statistics
 import subprocess
 import sys
 import tempfile
@@ -65,16 +66,21 @@ def main() -> None:
         numeric_check_cost(sheet_path)
 
 
-def interleaved(first: Callable[[], object], second: Callable[[], object],
-                repeat: int = 15) -> tuple[float, float]:
-    """Best CPU time of each of two calls, alternated ``repeat`` times, in seconds."""
+def paired(first: Callable[[], object], second: Callable[[], object],
+           pairs: int = 21) -> tuple[float, float, float]:
+    """Best CPU time of each of two calls and the median ratio second/first of ``pairs``
+    back-to-back runs (order alternating), robust to a machine shared with other work."""
     best = [float("inf"), float("inf")]
-    for _ in range(repeat):
-        for i, fn in enumerate((first, second)):
+    ratios = []
+    for k in range(pairs):
+        taken = [0.0, 0.0]
+        for i in ((0, 1) if k % 2 else (1, 0)):
             start = time.process_time()
-            fn()
-            best[i] = min(best[i], time.process_time() - start)
-    return best[0], best[1]
+            (first, second)[i]()
+            taken[i] = time.process_time() - start
+            best[i] = min(best[i], taken[i])
+        ratios.append(taken[1] / taken[0])
+    return best[0], best[1], statistics.median(ratios)
 
 
 def numeric_check_cost(sheet_path: Path) -> None:
@@ -87,16 +93,15 @@ def numeric_check_cost(sheet_path: Path) -> None:
         with mock.patch.dict(sexpr._TOKEN_RES, unchecked):
             load_netlist(sheet_path)
 
-    base, checked = interleaved(reader_unchecked, lambda: load_netlist(sheet_path))
+    base, checked, ratio = paired(reader_unchecked, lambda: load_netlist(sheet_path))
     print(f"{sheet_path.name}: reader without the numeric-list check {base * 1e3:7.1f} ms, "
-          f"with it {checked * 1e3:7.1f} ms, ratio {base / checked:.3f}x, "
-          f"cost {100 * (checked / base - 1):+.1f} % (target < 5 %)")
-    base, checked = interleaved(
+          f"with it {checked * 1e3:7.1f} ms (best of each); median ratio with/without "
+          f"{ratio:.3f}, cost {100 * (ratio - 1):+.1f} % (target < 5 %)")
+    base, checked, ratio = paired(
         lambda: sexpr.parse(text, drop_cosmetic=True, check_numbers=False),
         lambda: sexpr.parse(text, drop_cosmetic=True))
-    print(f"{sheet_path.name}: tokenizer without {base * 1e3:7.1f} ms, with "
-          f"{checked * 1e3:7.1f} ms, ratio {base / checked:.3f}x, "
-          f"cost {100 * (checked / base - 1):+.1f} %")
+    print(f"{sheet_path.name}: its tokenizer call without {base * 1e3:7.1f} ms, with "
+          f"{checked * 1e3:7.1f} ms; median ratio {ratio:.3f}, cost {100 * (ratio - 1):+.1f} %")
 
 
 if __name__ == "__main__":

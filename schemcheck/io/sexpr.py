@@ -118,9 +118,11 @@ def _words(words: tuple[str, ...]) -> str:
 _EDITOR_NUMBER = r"[+-]?+(?:\d++(?:\.\d*+)?+|\.\d++)(?:[eE][+-]?+\d++)?+"
 _NUMERIC_HEAD = _words(NUMERIC_HEADS)
 #: The rest of a numeric list that is well formed: one or more numbers, then ')'.
-_NUMBERS_TO_END = r"(?:\s++" + _EDITOR_NUMBER + r"(?=[\s)]))++\s*+\)"
+_NUMBERS_TO_END = r"(?:\s++" + _EDITOR_NUMBER + r")++\s*+\)"
 #: The same, written as the editor writes it (single blanks): taken as one token.
-_NUMBERS_WRITTEN = r"(?: " + _EDITOR_NUMBER + r"(?=[ )]))++\)"
+_NUMBERS_WRITTEN = r"(?: " + _EDITOR_NUMBER + r")++\)"
+#: The first letters of the numeric heads: a list starting otherwise needs no check.
+_NUMERIC_FIRST = "".join(sorted({head[0] for head in NUMERIC_HEADS}))
 #: What replaces the tokenizer's '(' when numeric lists are checked: a numeric list as
 #: the editor writes it, whole (one token, split in Python: fewer tokens pay for the
 #: check); the opening '(head' alone of a numeric list that holds anything but numbers
@@ -137,8 +139,9 @@ def _nested_checked(depth: int) -> str:
     enclosing block is not taken whole, and the tokenizer meets the bad list itself)."""
     inner = r'(?:[^()"]++|' + _STRING + ")*+"
     for _ in range(depth):
-        inner = (r'(?:[^()"]++|' + _STRING + r"|\((?:" + _NUMERIC_HEAD + _NUMBERS_TO_END
-                 + r"|(?!" + _NUMERIC_HEAD + r")" + inner + r"\)))*+")
+        inner = (r'(?:[^()"]++|' + _STRING + r"|\((?:(?![" + _NUMERIC_FIRST + r"])" + inner
+                 + r"\)|" + _NUMERIC_HEAD + r"(?:" + _NUMBERS_WRITTEN + "|" + _NUMBERS_TO_END
+                 + r")|(?!" + _NUMERIC_HEAD + r")" + inner + r"\)))*+")
     return inner
 
 
