@@ -82,7 +82,10 @@ def _audit(paths: list[str], name: str, strip: str | None,
            confinement: tuple[list[str], list[str]]) -> tuple[dict, int]:
     try:
         with confined(*confinement):
-            key = submission_key(paths, current_app.config["AUDIT_OVERRIDES"])
+            # An upload's answer names files relative to the upload; a path submission's
+            # names them where they lie, so where they lie is part of its key.
+            key = submission_key(paths, current_app.config["AUDIT_OVERRIDES"],
+                                 located=strip is None)
         existing = _store().find_by_key(key)
         if existing is not None:
             return _answer(existing, True)

@@ -29,6 +29,8 @@ class FindingSchema(Schema):
     channel = fields.Integer(allow_none=True, metadata={
         "description": "The amplifier within the unit where one unit holds several"})
     stage = fields.String(metadata={"description": "The stage identifier, like U4/2"})
+    line = fields.Integer(allow_none=True, metadata={"description": "1-based line in file"})
+    column = fields.Integer(allow_none=True, metadata={"description": "1-based column"})
 
 
 class SensitivitySchema(Schema):

@@ -40,7 +40,7 @@ class AuditStore:
         with self.lock, self.cache.db:
             self.cache.db.execute("INSERT INTO audits VALUES (?, ?, ?, ?, ?)",
                                   (record["id"], key, name, record["created"],
-                                   json.dumps(result, sort_keys=True, allow_nan=False)))
+                                   json.dumps(result, allow_nan=False)))
         return record
 
     def recent(self, limit: int) -> list[dict[str, Any]]:

@@ -34,13 +34,13 @@ _CONTEXT.set_forkserver_preload(["schemcheck.run.batch", "schemcheck_api.warm"])
 def _run(paths: list[str], overrides: dict[str, Any],
          confinement: tuple[list[str], list[str]] | None) -> dict[str, Any]:
     from schemcheck.io.files import confined
-    from schemcheck.run.batch import audit_paths
+    from schemcheck.run.batch import audit_paths, public
 
     if confinement is None:
-        return audit_paths(paths, overrides=overrides, jobs=1, cache=None)
+        return public(audit_paths(paths, overrides=overrides, jobs=1, cache=None))
     folders, files = confinement
     with confined(folders, files):
-        return audit_paths(paths, overrides=overrides, jobs=1, cache=None)
+        return public(audit_paths(paths, overrides=overrides, jobs=1, cache=None))
 
 
 class AuditRunner:

@@ -164,14 +164,17 @@ def audit_netlist(netlist: Netlist, settings: Settings,
                        checks.check_part_match, checks.check_estimates,
                        checks.check_bias_resistor, checks.check_budget):
         findings.extend(rule_check(ctx))
-    for error in netlist.errors:  # a child sheet that could not be read
-        findings.insert(0, Finding("unreadable-design", "error", "", None, error,
-                                   "fix or re-save the file in the schematic editor"))
     sheet_file = {(op.unit.part.ref, op.unit.part.unit): op.unit.part.source_file
                   for op in network.opamps}
     sheet_file.update({(u.part.ref, u.part.unit): u.part.source_file for u, _ in omitted})
-    result.findings = [replace(f, file=sheet_file.get((f.ref, f.unit)) or netlist.source)
-                       for f in findings if f.rule not in settings.disabled_rules]
+    findings = [replace(f, file=sheet_file.get((f.ref, f.unit)) or netlist.source)
+                for f in findings]
+    locations = netlist.error_locations or ((netlist.source, None, None),) * len(netlist.errors)
+    unreadable = [Finding("unreadable-design", "error", "", None, error,
+                          "fix or re-save the file in the schematic editor", file=file,
+                          line=line, column=column)
+                  for error, (file, line, column) in zip(netlist.errors, locations)]
+    result.findings = [f for f in unreadable + findings if f.rule not in settings.disabled_rules]
     excludes = [excluded_sources(network, k) for k in range(len(network.opamps))]
     result.stages = [_stage_result(ctx, mc, k) for k in range(len(network.opamps))]
     for k, stage in enumerate(result.stages):

@@ -245,9 +245,12 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
         designs, missing, shard_info = split(designs, missing, shard)
     cache = None
     if not no_cache:
-        from schemcheck.run.cache import ResultCache
+        from schemcheck.run.cache import CacheUnavailable, ResultCache
 
-        cache = ResultCache(cache_file)
+        try:
+            cache = ResultCache(cache_file)
+        except CacheUnavailable as error:
+            click.echo(f"Warning: {error}; auditing without the results cache", err=True)
     progress = Progress()
     try:
         report = audit_paths(list(paths), overrides=overrides, settings_path=settings_path,
@@ -288,8 +291,9 @@ def merge(reports: tuple[str, ...], fmt: str, output: str | None, fail_on: str) 
 
 def _finish(report: dict[str, Any], fmt: str, output: str | None, fail_on: str) -> None:
     """Write ``report``, repeat its warnings and errors on standard error, exit."""
-    from schemcheck.run.batch import exit_status
+    from schemcheck.run.batch import exit_status, public
 
+    report = public(report)
     text = _render(report, fmt, output)
     if output:
         from schemcheck.io.files import write_text

@@ -105,6 +105,8 @@ class Netlist:
     warnings: tuple[str, ...] = ()
     #: files of the design that could not be read, one located message each
     errors: tuple[str, ...] = ()
+    #: where each of ``errors`` is: (file, line, column), line and column 1-based or None
+    error_locations: tuple[tuple[str, int | None, int | None], ...] = ()
 
     def to_dict(self) -> dict[str, Any]:
         """The ``schemcheck netlist --format json`` shape."""
@@ -173,9 +175,13 @@ class Finding:
     channel: int | None = None
     #: the stage identifier the reports use (``U4/2``; empty for a design-wide finding)
     stage: str = ""
+    #: where in ``file`` (1-based), when the finding is about a place in the text
+    line: int | None = None
+    column: int | None = None
 
     def to_dict(self) -> dict[str, Any]:
         return {"rule": self.rule, "severity": self.severity, "ref": self.ref,
                 "unit": self.unit, "message": self.message, "suggestion": self.suggestion,
                 "sheet": self.sheet, "file": self.file, "data": dict(self.data),
-                "channel": self.channel, "stage": self.stage}
+                "channel": self.channel, "stage": self.stage, "line": self.line,
+                "column": self.column}

@@ -92,6 +92,12 @@ _RULES = (
          "and either the symbol is wrong or the circuit will not work as drawn.",
          "Comparators are not compensated for negative feedback and their open-collector "
          "outputs need a pull-up: the drawing and the part disagree."),
+    Rule("audit-failed", "error", "Design whose audit stopped on an internal error",
+         "The audit of a design stopped on an unexpected error of the tool (not of the "
+         "design's files): that design is reported unchecked, the rest of the batch is still "
+         "audited.",
+         "A design the tool could not finish auditing has not been checked at all; the error "
+         "is the tool's to fix, and the file shows how to reproduce it."),
 )
 
 RULES: dict[str, Rule] = {rule.id: rule for rule in _RULES}

@@ -6,7 +6,9 @@ Standard library only, so it runs in the schematic editor's own Python. It posts
 design (the root sheet, its child sheets, and a schemcheck.toml and the parts library
 it names, when present) to a running ``schemcheck serve``; when no service answers it
 runs the audit in-process (if the schemcheck package is importable) or through the
-``schemcheck`` command.
+``schemcheck`` command. The design's files are those schemcheck's own resolver names
+(``schemcheck/io/resolve.py``, standard library only too: from the installed package,
+or from the source tree this script sits in).
 
     python3 schemcheck_action.py board.kicad_sch [--url http://127.0.0.1:8765] [--token T]
                                  [--open]
@@ -20,52 +22,49 @@ Exit status: 0 no error finding, 1 error findings, 2 the audit could not be run.
 from __future__ import annotations
 
 import argparse
+import importlib.util
 import json
 import os
-import re
 import subprocess
 import sys
-import tomllib
 import urllib.error
 import urllib.request
 import uuid
 import webbrowser
 from pathlib import Path
 
-_SHEETFILE = re.compile(rb'\(property\s+"Sheet ?file"\s+"((?:[^"\\]|\\.)*)"')
+_HERE = os.path.dirname(os.path.abspath(__file__))
+
+
+def _resolver():
+    """schemcheck's own resolver of a design's files (:mod:`schemcheck.io.resolve`): from
+    the installed package, else from the source tree this script sits in; None when
+    neither is here (the audit then runs through the ``schemcheck`` command)."""
+    try:
+        from schemcheck.io import resolve
+
+        return resolve
+    except ImportError:
+        pass
+    path = os.path.join(_HERE, os.pardir, "schemcheck", "io", "resolve.py")
+    if not os.path.isfile(path):
+        return None
+    spec = importlib.util.spec_from_file_location("schemcheck_resolve", path)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
 
 
 def design_files(root: str) -> list[str]:
-    """The root, its child sheets (recursively), and the settings and parts library."""
-    root = os.path.abspath(root)
-    base = os.path.dirname(root)
-    files, pending = [root], [root]
-    while pending:
-        current = pending.pop()
-        try:
-            with open(current, "rb") as handle:
-                data = handle.read()
-        except OSError:
-            continue
-        for match in _SHEETFILE.finditer(data):
-            name = match.group(1).decode("utf-8", "replace").replace("\\\\", "/")
-            child = os.path.normpath(os.path.join(os.path.dirname(current), name))
-            if child not in files and os.path.isfile(child):
-                files.append(child)
-                pending.append(child)
-    settings = os.path.join(base, "schemcheck.toml")
-    if os.path.isfile(settings):
-        files.append(settings)
-        try:
-            with open(settings, "rb") as handle:
-                library = tomllib.load(handle).get("parts_library")
-        except (OSError, tomllib.TOMLDecodeError):
-            library = None
-        if isinstance(library, str):
-            path = os.path.normpath(os.path.join(base, library))
-            if os.path.isfile(path) and path.startswith(base + os.sep):
-                files.append(path)
-    return files
+    """The root, its child sheets (recursively), and the settings and parts library, as
+    schemcheck itself resolves them; a parts library outside the design's folder is left
+    out (the service takes only names below the root's folder)."""
+    resolver = _resolver()
+    if resolver is None:
+        raise LookupError("schemcheck's resolver of design files is not importable here")
+    base = os.path.dirname(resolver.normalised(root))
+    return list(resolver.sheet_files(root)) + [
+        f for f in resolver.support_files(root) if f.startswith(base + os.sep)]
 
 
 def encode_multipart(files: list[str], base: str) -> tuple[bytes, str]:
@@ -123,7 +122,7 @@ def via_service(design: str, url: str, token: str | None,
 def in_process(design: str, html: bool = False) -> tuple[dict, str, str | None]:
     try:
         from schemcheck.report.formats import render
-        from schemcheck.run.batch import audit_paths
+        from schemcheck.run.batch import audit_paths, public
     except ImportError:
         extra = ["--charts"] if html else []
         out = subprocess.run(["schemcheck", "audit", design, "--format", "json", *extra],
@@ -136,7 +135,8 @@ def in_process(design: str, html: bool = False) -> tuple[dict, str, str | None]:
         page = subprocess.run(["schemcheck", "audit", design, "--format", "html"],
                               capture_output=True, text=True, check=False).stdout if html else None
         return report, md, page
-    report = audit_paths([design], jobs=1, overrides={"charts": True} if html else None)
+    report = public(audit_paths([design], jobs=1,
+                                overrides={"charts": True} if html else None))
     return report, render(report, "markdown"), render(report, "html") if html else None
 
 
@@ -169,7 +169,7 @@ def main(argv: list[str] | None = None) -> int:
             report, checklist, page = via_service(args.design, args.url.rstrip("/"),
                                                   args.token, args.open_report)
             where = "service"
-        except (OSError, urllib.error.URLError):
+        except (OSError, urllib.error.URLError, LookupError):
             report, checklist, page = in_process(args.design, args.open_report)
             where = "in-process"
     except (RuntimeError, ValueError) as error:

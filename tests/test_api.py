@@ -395,3 +395,26 @@ def test_no_nan_reaches_a_service_answer(client, app):
 
     with app.app_context(), pytest.raises(ValueError):
         problem_response(500, "x", "y", value=float("nan"))  # strict JSON or nothing
+
+
+
+
+def test_copies_of_one_design_submitted_by_path_keep_their_own_paths(tmp_path, make_app):
+    # Guards: two byte-identical designs in two folders, each submitted by path, are each
+    # answered with their own file, not with the first one's stored answer.
+    for rev in ("rev1", "rev2"):
+        (tmp_path / rev).mkdir()
+        for name in DEMO_FILES:
+            (tmp_path / rev / name).write_bytes((DEMO / name).read_bytes())
+    app = make_app({"STORE_PATH": str(tmp_path / "store.sqlite3"),
+                    "ALLOWED_FOLDERS": [str(tmp_path)], "AUDIT_OVERRIDES": {"mc_samples": 0}})
+    client = app.test_client()
+    files = []
+    for rev in ("rev1", "rev2"):
+        path = str(tmp_path / rev / "frontend.kicad_sch")
+        response = client.post("/v1/audits", json={"path": path})
+        assert response.status_code == 201
+        (design,) = response.get_json()["result"]["designs"]
+        files.append(os.path.realpath(os.path.join(os.getcwd(), design["file"])))
+    assert files == [os.path.realpath(tmp_path / rev / "frontend.kicad_sch")
+                     for rev in ("rev1", "rev2")]

@@ -22,7 +22,7 @@ from schemcheck.run.batch import audit_paths, exit_status
 from schemcheck.run.cache import ResultCache
 from schemcheck.cli import main
 
-from .conftest import needs_proc, session_processes, wait_session_empty
+from .conftest import FIXTURES, needs_proc, session_processes, wait_session_empty
 from .make_demo import stage
 from .synth import Sheet
 
@@ -99,7 +99,8 @@ def test_cache_returns_identical_results_and_reaudits_changes(library, tmp_path)
     first = audit_paths([str(library)], overrides=overrides, jobs=1, cache=cache)
     second = audit_paths([str(library)], overrides=overrides, jobs=1, cache=cache)
     assert second["designs"] == first["designs"]
-    assert second["stats"] == {"designs": GOOD + 4, "from_cache": GOOD + 1, "audited": 3}
+    assert second["stats"] == {"designs": GOOD + 4}
+    assert second["run"] == {"from_cache": GOOD + 1, "audited": 3}
     changed = library / "project03" / "board03.kicad_sch"
     original = changed.read_text(encoding="utf-8")
     try:
@@ -108,9 +109,9 @@ def test_cache_returns_identical_results_and_reaudits_changes(library, tmp_path)
         third = audit_paths([str(library)], overrides=overrides, jobs=1, cache=cache)
     finally:
         changed.write_text(original, encoding="utf-8")
-    assert third["stats"]["audited"] == 4
+    assert third["run"]["audited"] == 4
     other = audit_paths([str(library)], overrides={"mc_samples": 100}, jobs=1, cache=cache)
-    assert other["stats"]["from_cache"] == 0  # settings are part of the key
+    assert other["run"]["from_cache"] == 0  # settings are part of the key
     cache.close()
 
 
@@ -231,5 +232,242 @@ def test_cache_row_that_is_json_but_not_a_result(tmp_path, row):
     again = audit_paths([str(tmp_path / "d")], overrides={"mc_samples": 0}, jobs=1, cache=cache)
     cache.close()
     assert again["designs"] == fresh["designs"]
-    assert again["stats"]["audited"] == 1
+    assert again["run"]["audited"] == 1
     assert len(again["warnings"]) == 1 and "could not read a cached result" in again["warnings"][0]
+
+
+# --- Regressions: one resolver, the cache, folders, one design's failure -------------------
+
+
+def stage_sheet(vos: str, seed: int = 5, rp: str = "9k1") -> str:
+    sheet = Sheet(project="fallback", seed=seed)
+    stage(sheet, 76.2, 76.2, ref="U1", unit=1, value="OPX", rp=rp,
+          fields={"Vos": vos, "Ib": "20nA", "Ios": "2nA"})
+    return sheet.text()
+
+
+def fallback_design(folder, vos: str = "1mV"):
+    """root.kicad_sch places sub/a.kicad_sch, which places b.kicad_sch: there is no
+    sub/b.kicad_sch, so the reader finds b relative to the root's folder."""
+    (folder / "sub").mkdir(parents=True, exist_ok=True)
+    root = Sheet(project="fallback", seed=1)
+    root.sheet("A", "sub/a.kicad_sch", 100, 50, [])
+    (folder / "root.kicad_sch").write_text(root.text(), encoding="utf-8")
+    middle = Sheet(project="fallback", seed=2)
+    middle.sheet("B", "b.kicad_sch", 100, 50, [])
+    (folder / "sub" / "a.kicad_sch").write_text(middle.text(), encoding="utf-8")
+    (folder / "b.kicad_sch").write_text(stage_sheet(vos), encoding="utf-8")
+    return folder / "root.kicad_sch"
+
+
+def test_cache_sees_an_edit_of_a_child_found_through_the_root_folder(tmp_path):
+    # Guards: the cache key covers every sheet the reader reads, a child found through
+    # the root folder included; an edit of it (Vos 1 mV -> 7 mV) is audited afresh.
+    # Expected Vos: the value written in the edited file.
+    design = tmp_path / "design"
+    root = fallback_design(design, vos="1mV")
+    cache = ResultCache(str(tmp_path / "results.sqlite3"))
+    first = audit_paths([str(root)], overrides={"mc_samples": 0}, jobs=1, cache=cache)
+    assert first["designs"][0]["stages"][0]["params"]["vos"] == pytest.approx(1e-3)
+    fallback_design(design, vos="7mV")
+    second = audit_paths([str(root)], overrides={"mc_samples": 0}, jobs=1, cache=cache)
+    cache.close()
+    assert second["designs"][0]["stages"][0]["params"]["vos"] == pytest.approx(7e-3)
+    # and the child is audited once, through its root, not as a design of its own
+    third = audit_paths([str(design)], overrides={"mc_samples": 0}, jobs=1)
+    assert [os.path.basename(d["file"]) for d in third["designs"]] == ["root.kicad_sch"]
+
+
+def test_service_key_follows_an_edit_of_a_child_found_through_the_root_folder(tmp_path):
+    # Guards: the service's identical-submission key covers the same files.
+    from schemcheck.run.batch import submission_key
+
+    root = fallback_design(tmp_path, vos="1mV")
+    before = submission_key([str(root)], {})
+    fallback_design(tmp_path, vos="7mV")
+    assert submission_key([str(root)], {}) != before
+
+
+def copied_designs(folder):
+    """One hierarchical design (a bias-resistor mismatch in its child sheet) copied into
+    two revision folders, byte for byte."""
+    for rev in ("rev1", "rev2"):
+        (folder / rev).mkdir(parents=True)
+        top = Sheet(project="board", seed=11)
+        top.sheet("Amp", "amp.kicad_sch", 100, 50, [])
+        (folder / rev / "board.kicad_sch").write_text(top.text(), encoding="utf-8")
+        (folder / rev / "amp.kicad_sch").write_text(stage_sheet("1mV", rp="22k"),
+                                                      encoding="utf-8")
+
+
+@pytest.mark.parametrize("fmt", ["json", "markdown", "sarif"])
+def test_warm_run_is_byte_identical_for_copied_designs(tmp_path, monkeypatch, fmt):
+    # Guards: cached results are path-independent and put back where each design lies,
+    # so a warm run gives the cold run's bytes, and neither copy hides the other.
+    # Expected: the cold run itself (no cache involved in what it reports).
+    copied_designs(tmp_path / "designs")
+    monkeypatch.chdir(tmp_path)
+    command = ["audit", "designs", "--format", fmt, "--samples", "0", "--jobs", "1",
+               "--cache-file", str(tmp_path / f"{fmt}.sqlite3")]
+    cold = CliRunner().invoke(main, command)
+    warm = CliRunner().invoke(main, command)
+    assert cold.exit_code == warm.exit_code == 0  # a warning only
+    assert warm.stdout_bytes == cold.stdout_bytes
+    children = {os.path.join("designs", rev, "amp.kicad_sch") for rev in ("rev1", "rev2")}
+    if fmt == "json":
+        designs = json.loads(cold.stdout)["designs"]
+        assert {d["file"] for d in designs} == {
+            os.path.join("designs", rev, "board.kicad_sch") for rev in ("rev1", "rev2")}
+        assert {f["file"] for d in designs for f in d["findings"]} == children
+    elif fmt == "sarif":
+        results = json.loads(cold.stdout)["runs"][0]["results"]
+        assert {r["locations"][0]["physicalLocation"]["artifactLocation"]["uri"]
+                for r in results} == {c.replace(os.sep, "/") for c in children}
+
+
+def test_cached_result_keeps_no_path_of_the_design(tmp_path):
+    # Guards: what the cache stores names no folder of the design it came from.
+    copied_designs(tmp_path)
+    cache = ResultCache(str(tmp_path / "results.sqlite3"))
+    audit_paths([str(tmp_path / "rev1")], overrides={"mc_samples": 0}, jobs=1, cache=cache)
+    (stored,) = [row[0] for row in cache.db.execute("SELECT result FROM results")]
+    cache.close()
+    assert str(tmp_path) not in stored
+
+
+@pytest.mark.parametrize("jobs", ["1", "2"], ids=["in-process", "worker-processes"])
+def test_unexpected_error_in_one_design_is_that_designs_error(library, monkeypatch, jobs):
+    # Guards: an error that is not the input's fault, inside one design's audit, becomes
+    # that design's error (exit 2, the file named); the batch goes on.
+    import multiprocessing
+
+    import schemcheck.audit
+
+    if jobs != "1" and multiprocessing.get_start_method() != "fork":
+        pytest.skip("worker processes see the replaced function only when forked")
+
+    real = schemcheck.audit.audit_netlist
+
+    def failing(netlist, *args, **kwargs):
+        if netlist.source.endswith("board07.kicad_sch"):
+            raise ZeroDivisionError("float division by zero")
+        return real(netlist, *args, **kwargs)
+
+    monkeypatch.setattr(schemcheck.audit, "audit_netlist", failing)
+    result = CliRunner().invoke(main, ["audit", str(library / "project07"),
+                                       str(library / "project08"), "--no-cache", "--jobs", jobs,
+                                       "--samples", "0"])
+    assert result.exit_code == 2
+    assert "Traceback" not in result.output
+    designs = {os.path.basename(d["file"]): d for d in json.loads(result.stdout)["designs"]}
+    assert len(designs["board08.kicad_sch"]["stages"]) == 1
+    failed = designs["board07.kicad_sch"]
+    assert [f["rule"] for f in failed["findings"]] == ["audit-failed"]
+    assert failed["errors"][0].startswith(str(library / "project07" / "board07.kicad_sch"))
+    assert "ZeroDivisionError: float division by zero" in failed["errors"][0]
+    assert "board07.kicad_sch" in result.stderr
+
+
+def test_worker_process_lost_is_that_designs_error(library):
+    # Guards: a worker process that dies while auditing one design loses that design
+    # only (the pool's error is turned into the design's error).
+    from concurrent.futures.process import BrokenProcessPool
+
+    from schemcheck.run.batch import _outcome
+    from schemcheck.settings import Settings
+
+    class Lost:
+        def result(self):
+            raise BrokenProcessPool("a child process terminated abruptly")
+
+    root = str(library / "project01" / "board01.kicad_sch")
+    result = _outcome(Lost(), root, Settings())
+    assert result["findings"][0]["rule"] == "audit-failed" and result["errors"]
+    assert result["errors"][0].startswith(root)
+
+
+def test_folder_of_exported_netlists_is_audited(tmp_path):
+    # Guards: `audit FOLDER` reads the editor's exported netlists (.net, .xml) too; a
+    # netlist beside the schematic it was exported from is not audited twice.
+    netlists = FIXTURES / "reader" / "netlists"
+    (tmp_path / "small.net").write_bytes((netlists / "small.net").read_bytes())
+    (tmp_path / "other.xml").write_bytes((netlists / "small.xml").read_bytes())
+    (tmp_path / "notes.xml").write_text("<notes>not a netlist</notes>\n", encoding="utf-8")
+    (tmp_path / "board").mkdir()
+    (tmp_path / "board" / "board.kicad_sch").write_text(_design(3), encoding="utf-8")
+    (tmp_path / "board" / "board.net").write_bytes((netlists / "small.net").read_bytes())
+    report = audit_paths([str(tmp_path)], overrides={"mc_samples": 0}, jobs=1)
+    files = sorted(os.path.relpath(d["file"], tmp_path) for d in report["designs"])
+    assert files == [os.path.join("board", "board.kicad_sch"), "other.xml", "small.net"]
+    assert all(not d["errors"] for d in report["designs"])
+
+
+def test_folder_without_a_design_is_an_error(tmp_path):
+    # Guards: a folder holding no design at all is exit 2 with a message, not a silent 0.
+    (tmp_path / "README.txt").write_text("nothing to audit\n", encoding="utf-8")
+    result = CliRunner().invoke(main, ["audit", str(tmp_path), "--no-cache"])
+    assert result.exit_code == 2
+    assert result.stderr == (
+        f"Error: {tmp_path}: expected a KiCad schematic (.kicad_sch) or a netlist exported by "
+        "the schematic editor (.net, .xml) in this folder or below it, found none\n")
+
+
+def test_unwritable_cache_folder_falls_back_to_no_cache(library, tmp_path):
+    # Guards: a cache that cannot be created is one warning line, and the audit still runs
+    # (exit status from the findings, not 1 from a traceback).
+    blocker = tmp_path / "not-a-folder"
+    blocker.write_text("a file where the cache folder should be\n", encoding="utf-8")
+    cache_file = blocker / "results.sqlite3"
+    result = CliRunner().invoke(main, ["audit", str(library / "project01"), "--samples", "0",
+                                       "--cache-file", str(cache_file)])
+    assert result.exit_code == 0
+    assert "Traceback" not in result.output
+    assert result.stderr.count("\n") == 1
+    assert result.stderr.startswith(f"Warning: {cache_file}: cannot create the results "
+                                    "database's folder (")
+    assert result.stderr.endswith("; auditing without the results cache\n")
+    assert len(json.loads(result.stdout)["designs"][0]["stages"]) == 1
+
+
+def test_broken_child_sheet_finding_points_at_the_sheet(tmp_path, monkeypatch):
+    # Guards: the finding of a child sheet that cannot be read names that sheet's file,
+    # line and column (JSON, and SARIF's region). Expected position: counted in the
+    # text written here.
+    top = Sheet(project="broken", seed=21)
+    top.sheet("Amp", "amp.kicad_sch", 100, 50, [])
+    (tmp_path / "board.kicad_sch").write_text(top.text(), encoding="utf-8")
+    child = stage_sheet("1mV").replace("\t(sheet_instances", "\t(junction (at abc 10))\n"
+                                       "\t(sheet_instances", 1)
+    (tmp_path / "amp.kicad_sch").write_text(child, encoding="utf-8")
+    offset = child.index("abc")
+    line, column = child.count("\n", 0, offset) + 1, offset - child.rfind("\n", 0, offset)
+    monkeypatch.chdir(tmp_path)
+    result = CliRunner().invoke(main, ["audit", "board.kicad_sch", "--no-cache"])
+    assert result.exit_code == 2
+    (finding,) = json.loads(result.stdout)["designs"][0]["findings"]
+    assert (finding["rule"], finding["file"], finding["line"], finding["column"]) == (
+        "unreadable-design", "amp.kicad_sch", line, column)
+    result = CliRunner().invoke(main, ["audit", "board.kicad_sch", "--no-cache", "--format",
+                                       "sarif"])
+    (location,) = json.loads(result.stdout)["runs"][0]["results"][0]["locations"]
+    assert location["physicalLocation"] == {"artifactLocation": {"uri": "amp.kicad_sch"},
+                                            "region": {"startLine": line,
+                                                       "startColumn": column}}
+
+
+def test_cache_that_stops_taking_writes_is_said_once(library, tmp_path):
+    # Guards: a database that refuses writes mid-run (opened read-only here, as a full
+    # disk or a read-only file would) costs one warning, not the run.
+    import sqlite3
+
+    path = tmp_path / "results.sqlite3"
+    ResultCache(str(path)).close()
+    cache = ResultCache(str(path))
+    cache.db.close()
+    cache.db = sqlite3.connect(f"file:{path}?mode=ro", uri=True, isolation_level=None)
+    report = audit_paths([str(library / "project01"), str(library / "project02")],
+                         overrides={"mc_samples": 0}, jobs=1, cache=cache)
+    cache.close()
+    assert [len(d["stages"]) for d in report["designs"]] == [1, 1]
+    (warning,) = report["warnings"]
+    assert warning.startswith(f"{path}: could not store results (")

@@ -125,3 +125,42 @@ def test_rules_can_be_switched_off():
     result = run("R1 GND m 10k", "R2 m out 100k", "U1 p=GND m=m out=out",
                  disabled_rules=("missing-parameters",))
     assert result.findings == []
+
+
+@pytest.mark.parametrize(
+    ("lines", "source_ohms", "suggested", "ib_error"),
+    [
+        # A unity follower fed through 10 kΩ from a connector.
+        pytest.param(("J1 IN GND", "R1 IN p 10k"), "10 kΩ", "E96 10 kΩ, E24 10 kΩ", "800 µV",
+                     id="through-a-resistor"),
+        # A follower biased by a 10k/10k divider: the + input sees 10k || 10k = 5k
+        # (Thevenin); nearest E96 4.99k, E24 5.1k (IEC 60063).
+        pytest.param(("R1 VCC p 10k", "R2 p GND 10k"), "5 kΩ", "E96 4.99 kΩ, E24 5.1 kΩ",
+                     "400 µV", id="divider-biased"),
+        # A follower whose + input is returned to ground through 10 kΩ.
+        pytest.param(("R1 p GND 10k",), "10 kΩ", "E96 10 kΩ, E24 10 kΩ", "800 µV",
+                     id="bias-resistor"),
+    ],
+)
+def test_follower_with_input_resistance_gets_a_feedback_resistor(lines, source_ohms, suggested,
+                                                                  ib_error):
+    # Guards: the E-series lookup is never asked for 0 Ω (a follower's - input sees no
+    # resistance); this once crashed the whole audit. Common practice: a follower whose
+    # + input sees R balances its bias currents with R from the output to the - input
+    # (the gain stays 1). Worked out: the Ib term is Ib+ x R = 80 nA x R at the output.
+    result = run(*lines, f"U1 p=p m=out out=out {BIPOLAR}")
+    (finding,) = result.findings
+    assert (finding.rule, finding.severity) == ("bias-resistor-mismatch", "warning")
+    assert finding.message == (f"U1/1 is a unity-gain buffer, but the + input sees "
+                               f"{source_ohms} and the - input 0 Ω: the mismatch leaves "
+                               f"{ib_error} of Ib error at the output")
+    assert finding.suggestion == (f"add {source_ohms} ({suggested}) between the output and the "
+                                  "- input (the buffer's gain stays 1) so both inputs see the "
+                                  "same resistance")
+
+
+def test_follower_with_matching_feedback_resistor_is_quiet():
+    # Common practice: R in the feedback of a follower equal to what its + input sees
+    # cancels the Ib term down to Ios x R.
+    result = run("J1 IN GND", "R1 IN p 10k", "R2 out m 10k", f"U1 p=p m=m out=out {BIPOLAR}")
+    assert rules(result) == []

@@ -383,3 +383,67 @@ def test_a_singular_monte_carlo_sample_is_a_stated_problem(tmp_path):
     assert ("problem: Monte Carlo not run: a sampled network could not be solved (Singular "
             "matrix); monte_carlo_v is null") in design["assumptions"]
     assert all(stage["monte_carlo_v"] is None for stage in design["stages"])
+
+
+def test_drawn_follower_through_a_resistor_is_audited(tmp_path):
+    # Guards: a unity follower fed through a resistor (its parameters known) is audited,
+    # not a traceback with exit status 1. Expected finding: as in test_checks.py (common
+    # practice: R from the output to the - input equal to what the + input sees).
+    from .make_demo import DUAL
+    from .synth import Sheet
+
+    sheet = Sheet(project="follower", seed=4)
+    x, y = 101.6, 76.2
+    u = sheet.place(DUAL, "U1", "OPX", x, y, mirror="x", unit=1,
+                    fields={"Vos": "1mV", "Ib": "80nA", "Ios": "10nA", "Input": "bipolar"})
+    sheet.path(u.pin("1"), (x + 12.7, y), (x + 12.7, y - 12.7), (x - 12.7, y - 12.7),
+               (x - 12.7, y - 2.54), u.pin("2"))
+    r = sheet.place("Device:R", "R1", "10k", x - 20.32, y + 2.54, angle=90)
+    sheet.wire(r.pin("2"), u.pin("3"))
+    sheet.label("IN", r.pin("1"), kind="global_label")
+    sheet.label("OUT", u.pin("1"), kind="global_label")
+    path = tmp_path / "follower.kicad_sch"
+    path.write_text(sheet.text(), encoding="utf-8")
+    code, out, err = run("audit", path, "--no-cache", "--samples", "0")
+    assert (code, err) == (0, "")  # one warning, below the default --fail-on error
+    (design,) = json.loads(out)["designs"]
+    assert design["stages"][0]["topology"] == "buffer"
+    assert [(f["rule"], f["suggestion"]) for f in design["findings"]] == [
+        ("bias-resistor-mismatch", "add 10 kΩ (E96 10 kΩ, E24 10 kΩ) between the output and "
+                                   "the - input (the buffer's gain stays 1) so both inputs "
+                                   "see the same resistance")]
+
+
+def test_non_numeric_coordinate_in_a_property_is_malformed(tmp_path):
+    # Guards: junk where the schematic editor reads a number, in a list the connectivity
+    # never reads (a property's position), is exit 2 with file, line and column, as the
+    # editor refuses such a file (KiCad's file-format documentation: '(at X Y ANGLE)'
+    # holds numbers). The position is counted in the text written here.
+    from .synth import Sheet
+
+    sheet = Sheet(project="junk", seed=6)
+    sheet.place("Device:R", "R1", "10k", 50.8, 50.8)
+    text = sheet.text()
+    before = '(property "Value" "10k"\n\t\t\t(at '
+    at = text.index(before) + len(before)
+    text = text[:at] + "zero" + text[text.index(" ", at):]
+    path = tmp_path / "junk.kicad_sch"
+    path.write_text(text, encoding="utf-8")
+    line, column = text.count("\n", 0, at) + 1, at - text.rfind("\n", 0, at)
+    for command in ("netlist", "audit"):
+        code, out, err = run(command, path, *(("--no-cache",) if command == "audit" else ()))
+        assert code == 2 and "Traceback" not in err
+        assert f"{path}:{line}:{column}: expected a number for X in '(at ...)', found 'zero'" \
+            in err
+
+
+def test_service_store_that_cannot_be_created_is_one_error_line(tmp_path):
+    # Guards: the service's store is its memory: where it cannot be created, `serve`
+    # refuses to start with one line and exit status 2 (no traceback).
+    blocker = tmp_path / "not-a-folder"
+    blocker.write_text("a file where the store's folder should be\n", encoding="utf-8")
+    code, _, err = run("serve", "--store", blocker / "store.sqlite3", "--port", "0")
+    assert code == 2
+    assert err.startswith(f"Error: {blocker / 'store.sqlite3'}: cannot create the results "
+                          "database's folder (")
+    assert err.count("\n") == 1

@@ -258,7 +258,7 @@ def test_changing_the_user_library_reaudits(at_root, tmp_path):
         changed = audit_paths([str(PARTS)], overrides=overrides, jobs=1, cache=cache)
     finally:
         cache.close()
-    assert (first["stats"]["audited"], again["stats"]["from_cache"]) == (1, 1)
-    assert changed["stats"]["audited"] == 1
+    assert (first["run"]["audited"], again["run"]["from_cache"]) == (1, 1)
+    assert changed["run"]["audited"] == 1
     u8 = next(s for s in changed["designs"][0]["stages"] if s["ref"] == "U8")
     assert u8["params"]["vos"] == pytest.approx(3e-3, rel=1e-12)

@@ -7,7 +7,11 @@ itself returns for the same text.
 
 from __future__ import annotations
 
+import re
+
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from kiutils.schematic import Schematic
 from kiutils.utils.sexpr import parse_sexp
 
@@ -181,3 +185,101 @@ def test_numbers_too_large_for_a_double_are_located(number):
     assert (caught.value.line, caught.value.column) == (2, 18)  # after "  (wire (pts (xy "
     assert caught.value.message == (f"expected a number, found one of {len(number)} digits, too "
                                     "large to store")
+
+
+# --- Numeric lists hold numbers only -------------------------------------------------
+# Outside source: KiCad's file-format documentation ("S-Expression common syntax" and
+# "Schematic File Format") gives these lists as numbers only: '(at X Y [ANGLE])',
+# '(xy X Y)', '(size WIDTH HEIGHT)', '(width WIDTH)', '(color R G B A)', '(start X Y)',
+# '(length LENGTH)'; the editor refuses a file with anything else there.
+
+#: Each item has '|' where the error must point (removed before parsing).
+JUNK = [
+    pytest.param('(property "Value" "10k" (at |zero 5.08 0) (effects (font (size 1.27 1.27))))',
+                 "expected a number for X in '(at ...)', found 'zero'", id="property-position"),
+    pytest.param('(property "Value" "10k" (at 0 5.08 0) (effects (font (size 1.27 |big))))',
+                 "expected a number for the height in '(size ...)', found 'big'",
+                 id="font-size-in-effects"),
+    pytest.param('(wire (pts (xy 1 2) (xy 3 4)) (stroke (width |thin) (type default)))',
+                 "expected a number for the width in '(width ...)', found 'thin'",
+                 id="stroke-width"),
+    pytest.param('(rectangle (start 0 0) (end 1 1) (fill (type color) (color 0 0 |"0" 1)))',
+                 "expected a number in '(color ...)', found '\"0\"'", id="fill-colour"),
+    pytest.param('(polyline (pts (xy 1 2) (xy 3 |(y))))',
+                 "expected a number for Y in '(xy ...)', found a list", id="polyline-point"),
+    pytest.param('(text "note" (at 1 2) (effects (font (size 1.27 1.27)))) (junction (at|))',
+                 "expected a number for X in '(at ...)', found nothing", id="empty-position"),
+]
+
+
+@pytest.mark.parametrize("drop_cosmetic", [False, True], ids=["whole", "drop-cosmetic"])
+@pytest.mark.parametrize(("item", "message"), JUNK)
+def test_junk_in_a_numeric_list_is_located(item, message, drop_cosmetic):
+    # Guards: junk where the editor reads a number is a located error, in lists the
+    # reader drops (drawing only) as much as in those it reads.
+    marked = f"(kicad_sch\n\t(version 20250114)\n\t{item}\n)\n"
+    offset = marked.index("|")
+    text = marked.replace("|", "")
+    with pytest.raises(ParseError) as caught:
+        sexpr.parse(text, file="junk.kicad_sch", drop_cosmetic=drop_cosmetic)
+    error = caught.value
+    assert (error.file, error.line, error.column, error.message) == (
+        "junk.kicad_sch", 3, offset - text.rfind("\n", 0, offset), message)
+
+
+def test_numbers_the_editor_reads_are_accepted_and_kept_as_written():
+    # The editor reads exponents and signs (strtod); the tree keeps kiutils' reading.
+    text = "(kicad_sch (at 1e3 -.5 +2.) (xy 1\n 2) (size 1.5 2 ))"
+    assert sexpr.parse(text) == sexpr.parse(text, compat=True) == parse_sexp(text)
+
+
+def test_truncation_is_reported_before_a_numeric_list():
+    with pytest.raises(ParseError) as caught:
+        sexpr.parse("(kicad_sch\n\t(wire (pts (xy 1 2) (xy 3", file="t.kicad_sch")
+    assert caught.value.message.startswith("expected ')' but the file ends here")
+
+
+def test_kiutils_mode_accepts_junk_like_kiutils():
+    text = "(kicad_sch (at zero 5.08 0))"
+    assert sexpr.parse(text, compat=True) == parse_sexp(text)
+
+
+def test_whole_numeric_list_tokens_never_look_like_cosmetic_blocks():
+    # The fast path tells a whole numeric list from a dropped cosmetic block by its
+    # first three characters.
+    assert not {(head + " ")[:3] for head in sexpr.COSMETIC_HEADS} & sexpr.NUMERIC_PREFIXES
+
+
+FIXTURE_SCH = [p for p in FIXTURE_FILES if p.suffix == ".kicad_sch"]
+
+
+@pytest.mark.parametrize("path", CORPUS_SCH + FIXTURE_SCH,
+                         ids=corpus_ids(CORPUS_SCH) + [p.name for p in FIXTURE_SCH])
+def test_checked_tree_is_the_unchecked_tree(path):
+    text = read_text(path)
+    for drop in (False, True):
+        assert sexpr.parse(text, drop_cosmetic=drop) == sexpr.parse(
+            text, drop_cosmetic=drop, check_numbers=False)
+
+
+_NUMERIC_VALUE = re.compile(r"\((?:at|xy|size|width|color|length|start|end)((?: [-\d.]+)+)\)")
+_SEED_TEXT = (FIXTURES / "demo" / "chain.kicad_sch").read_text(encoding="utf-8")
+_SEED_VALUES = [m.start(1) + 1 + sum(len(w) + 1 for w in m.group(1).split()[:k])
+                for m in _NUMERIC_VALUE.finditer(_SEED_TEXT)
+                for k in range(len(m.group(1).split()))]
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.sampled_from(_SEED_VALUES), st.sampled_from(["x", "abc", '"1"', "1.2.3", "--5", "()"]))
+def test_any_number_replaced_by_junk_is_located(offset, junk):
+    # Guards: wherever a number of a numeric list is replaced by something that is not a
+    # number, the reader refuses the file and points at it (line and column counted in
+    # the text). Seeds: every value of such lists in a demo sheet (they hold no strings
+    # that look like lists).
+    end = re.compile(r"[^ )]+").match(_SEED_TEXT, offset).end()
+    text = _SEED_TEXT[:offset] + junk + _SEED_TEXT[end:]
+    for drop in (False, True):
+        with pytest.raises(ParseError) as caught:
+            sexpr.parse(text, file="chain.kicad_sch", drop_cosmetic=drop)
+        assert (caught.value.line, caught.value.column) == (
+            text.count("\n", 0, offset) + 1, offset - text.rfind("\n", 0, offset))

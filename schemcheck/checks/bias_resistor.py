@@ -82,18 +82,29 @@ def check_bias_resistor(ctx: StageContext) -> list[Finding]:
             bias_term = abs(s_p + s_m) * ib
             if 1 / MATCH_BAND <= ratio <= MATCH_BAND or bias_term < SIGNIFICANT * worst:
                 continue
-            if comp is not None:
+            if ctx.network.opamps[k].minus == ctx.network.opamps[k].out:
+                # A follower: its - input sees nothing. Common practice: a resistor equal
+                # to what the + input sees, from the output to the - input, balances the
+                # bias currents and leaves the gain at 1.
+                ideal = r_plus  # the feedback resistor to add
+                what = f"{name} is a unity-gain buffer"
+                fix = (f"add {_ohms(r_plus)} ({_values(r_plus)}) between the output and the - "
+                       "input (the buffer's gain stays 1) so both inputs see the same "
+                       "resistance")
+            elif comp is not None:
                 ideal = comp.ohms + (r_minus - r_plus)
                 if ideal <= 0:
                     continue
                 what = (f"{comp.ref} ({_ohms(comp.ohms)}) at the + input of {name} is meant to "
                         "cancel the bias-current error")
                 fix = f"change {comp.ref} to {_ohms(ideal)} ({_values(ideal)})"
-            else:
+            elif r_minus > 0:
                 ideal = r_minus
                 what = f"the + input of {name} sees {_ohms(r_plus)} through its network"
                 fix = (f"make the + input see {_ohms(ideal)} ({_values(ideal)}) so the bias "
                        "currents cancel")
+            else:
+                continue  # no resistance to match the + input to: no value to suggest
             findings.append(Finding(
                 "bias-resistor-mismatch", "warning", ref, unit,
                 f"{what}, but the + input sees {_ohms(r_plus)} and the - input "

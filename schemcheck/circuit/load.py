@@ -47,7 +47,8 @@ def _load(name: str) -> Netlist:
         if design.problems or design.warnings:
             netlist = dataclasses.replace(
                 netlist, errors=tuple(str(p) for p in design.problems),
-                warnings=tuple(design.warnings) + netlist.warnings)
+                warnings=tuple(design.warnings) + netlist.warnings,
+                error_locations=tuple(_where(p, name) for p in design.problems))
         return netlist
     if kind == "kicad_net":
         from schemcheck.io.netlist import read_sexpr_netlist
@@ -61,6 +62,13 @@ def _load(name: str) -> Netlist:
     raise ParseError("expected a KiCad schematic '(kicad_sch ...)' or an exported netlist "
                      f"('(export ...)' or XML '<export ...>'), found {first!r}",
                      file=name, line=1, column=1)
+
+
+def _where(problem: Exception, root: str) -> tuple[str, int | None, int | None]:
+    """(file, line, column) of a problem with one file of a design."""
+    if isinstance(problem, ParseError):
+        return problem.file or root, problem.line, problem.column
+    return root, None, None
 
 
 __all__ = ["load_netlist", "sniff", "decode"]

@@ -16,10 +16,11 @@ from schemcheck.io import sexpr
 from schemcheck.io.files import is_allowed, is_confined, read_text
 from schemcheck.drawing import Design
 from schemcheck.io.kicad_sch import read_sheet
+from schemcheck.io.resolve import child_sheet, normalised
 
 
 def _key(path: str) -> str:
-    return os.path.normcase(os.path.abspath(path))
+    return normalised(path)
 
 
 def load_design(path: str | os.PathLike[str], text: str | None = None) -> Design:
@@ -40,7 +41,7 @@ def load_design(path: str | os.PathLike[str], text: str | None = None) -> Design
         parent_dir = os.path.dirname(os.path.abspath(parent.path))
         for sheet in parent.sheets:
             try:
-                child_path = _resolve(sheet.file, parent_dir, root_dir)
+                child_path = child_sheet(sheet.file, parent_dir, root_dir, _refuse_outside)
             except PathNotAllowedError:
                 line, column, _ = sexpr.locate(parent.text, (sheet.index,))
                 raise PathNotAllowedError(sheet.file, f"child sheet file of sheet {sheet.name!r}",
@@ -81,26 +82,11 @@ def _inside(path: str, folder: str) -> bool:
     return path == folder or path.startswith(folder.rstrip(os.sep) + os.sep)
 
 
-def _resolve(name: str, parent_dir: str, root_dir: str) -> str | None:
-    """A child sheet path, relative to its parent's folder or else to the root's.
-
-    A candidate outside the confinement is never looked at (not even whether it
-    exists); when no allowed candidate exists and one was refused, the reference is
-    refused (:class:`PathNotAllowedError`). Anything that exists and is not a folder
-    is taken, so that its reading says what it is (a FIFO is not "no such file").
-    """
-    name = name.replace("\\", "/")
-    refused = False
-    for base in (parent_dir, root_dir):
-        candidate = os.path.join(base, name)
-        if not is_allowed(candidate):
-            refused = True
-            continue
-        if os.path.exists(candidate) and not os.path.isdir(candidate):
-            return candidate
-    if refused:
-        raise PathNotAllowedError(name, "child sheet file")
-    return None
+def _refuse_outside(written: str, candidate: str, parent: str) -> None:
+    """A candidate child sheet outside the confinement is never looked at (not even
+    whether it exists): the reference is refused (:class:`PathNotAllowedError`)."""
+    if not is_allowed(candidate):
+        raise PathNotAllowedError(written, "child sheet file")
 
 
 #: Deeper than any real design (KiCad's own hierarchies are a few levels deep).

@@ -34,8 +34,8 @@ from schemcheck.units import (ValueFormatError, check_temperature_range, parse_q
                               parse_resistance, parse_tolerance, read_resistance)
 from schemcheck.io.files import (check_allowed, read_text, toml_document, toml_error,
                                   toml_position)
+from schemcheck.io.resolve import SETTINGS_NAME, library_path
 
-SETTINGS_NAME = "schemcheck.toml"
 #: The largest Monte Carlo seed (numpy's generators take any whole number >= 0; 64 bits
 #: is what TOML can write).
 MAX_SEED = 2**63 - 1
@@ -134,8 +134,7 @@ def apply_settings(data: dict[str, Any], path: str, base: Settings,
     if "parts_library" in data:
         if not isinstance(data["parts_library"], str):
             raise bad("parts_library", "a file path")
-        changes["parts_library"] = os.path.join(os.path.dirname(os.path.abspath(path)),
-                                                data["parts_library"])
+        changes["parts_library"] = library_path(path, data["parts_library"])
         where = toml_position(text, (), "parts_library") if text is not None else None
         changes["parts_library_named_at"] = (path, *where) if where else None
     if "rules_off" in data:

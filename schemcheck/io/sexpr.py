@@ -24,7 +24,11 @@ large for a double (kiutils makes it infinite) is refused, and nesting depth is 
 so no later recursive walk can overflow the stack. Both paths stop at the first list
 nested too deeply: the fast path tokenizes a large file a few MB at a time, the exact
 path one token at a time, so a file of millions of ``(`` costs what its first few MB
-cost.
+cost. Outside compat mode,
+lists that hold numbers only (:data:`NUMERIC_HEADS`: positions, sizes, widths, colours)
+are checked by the token regex itself, dropped cosmetic blocks included; a numeric list
+written as the editor writes it is one token, which pays for the check (the cost is
+measured in ``benchmarks/bench_netlist.py``).
 """
 
 from __future__ import annotations
@@ -103,34 +107,101 @@ def _nested(depth: int) -> str:
     return inner
 
 
+#: Lists whose every value is a number (coordinates, sizes, widths, colours) wherever
+#: they are: the schematic editor refuses a file with anything else there, so the reader
+#: does too, in lists the connectivity never reads as much as in those it reads.
+NUMERIC_HEADS = ("at", "xy", "size", "width", "color", "thickness", "length", "diameter",
+                 "start", "end", "mid", "center", "radius", "margins", "offset")
+
+
+def _words(words: tuple[str, ...]) -> str:
+    """Regex for any of ``words`` (then a blank or ')'), grouped by first letter so a
+    list head that is none of them is turned down at its first character."""
+    by_first: dict[str, list[str]] = {}
+    for word in words:
+        by_first.setdefault(word[0], []).append(re.escape(word[1:]))
+    branches = [re.escape(c) + ("(?:" + "|".join(rest) + ")" if len(rest) > 1 else rest[0])
+                for c, rest in by_first.items()]
+    return "(?=[" + "".join(by_first) + "])(?:" + "|".join(branches) + r")(?=[\s)])"
+
+
+#: A number as the editor reads one (integers, decimals, exponents).
+_EDITOR_NUMBER = r"[+-]?+(?:\d++(?:\.\d*+)?+|\.\d++)(?:[eE][+-]?+\d++)?+"
+_NUMERIC_HEAD = _words(NUMERIC_HEADS)
+#: The rest of a numeric list that is well formed: one or more numbers, then ')'.
+_NUMBERS_TO_END = r"(?:\s++" + _EDITOR_NUMBER + r")++\s*+\)"
+#: The same, written as the editor writes it (single blanks): taken as one token.
+_NUMBERS_WRITTEN = r"(?: " + _EDITOR_NUMBER + r")++\)"
+#: The first letters of the numeric heads: a list starting otherwise needs no check.
+_NUMERIC_FIRST = "".join(sorted({head[0] for head in NUMERIC_HEADS}))
+#: What replaces the tokenizer's '(' when numeric lists are checked: a numeric list as
+#: the editor writes it, whole (one token, split in Python: fewer tokens pay for the
+#: check); the opening '(head' alone of a numeric list that holds anything but numbers
+#: (a token that never ends with ')'); else '(' alone.
+_OPEN_CHECKED = (r"\((?:" + _NUMERIC_HEAD + r"(?:" + _NUMBERS_WRITTEN + r"|(?!"
+                 + _NUMBERS_TO_END + r")))?")
+#: First three characters of a whole numeric-list token after its '(' (never those of a
+#: cosmetic block: tests/test_sexpr.py checks).
+NUMERIC_PREFIXES = frozenset((head + " ")[:3] for head in NUMERIC_HEADS)
+
+
+def _nested_checked(depth: int) -> str:
+    """:func:`_nested`, where a nested numeric list must hold numbers only (else the
+    enclosing block is not taken whole, and the tokenizer meets the bad list itself)."""
+    inner = r'(?:[^()"]++|' + _STRING + ")*+"
+    for _ in range(depth):
+        inner = (r'(?:[^()"]++|' + _STRING + r"|\((?:(?![" + _NUMERIC_FIRST + r"])" + inner
+                 + r"\)|" + _NUMERIC_HEAD + r"(?:" + _NUMBERS_WRITTEN + "|" + _NUMBERS_TO_END
+                 + r")|(?!" + _NUMERIC_HEAD + r")" + inner + r"\)))*+")
+    return inner
+
+
+def _cosmetic(body: str) -> str:
+    return (r"\((?:" + "|".join(COSMETIC_HEADS) + r")(?=[\s)])" + body + r"\)"
+            + r'|\(pin "[^"\\]*+"\s*\(uuid [^()]*\)\s*\)')
+
+
 #: As alternatives of the token regex these can only start where a token starts, never
 #: inside a string. Deeper lists than four levels are left in (KiCad writes three).
-_COSMETIC = (r"\((?:" + "|".join(COSMETIC_HEADS) + r")(?=[\s)])" + _nested(3) + r"\)"
-             + r'|\(pin "[^"\\]*+"\s*\(uuid [^()]*\)\s*\)')
+_COSMETIC = _cosmetic(_nested(3))
 _FAST_TOKEN_NO_COSMETIC = re.compile(_COSMETIC + "|" + _FAST_TOKEN.pattern)
+#: The same two with numeric lists checked (the default outside compat mode).
+_AFTER_OPEN = _FAST_TOKEN.pattern.removeprefix(r"\(|")
+_FAST_TOKEN_CHECKED = re.compile(_OPEN_CHECKED + "|" + _AFTER_OPEN)
+_FAST_TOKEN_NO_COSMETIC_CHECKED = re.compile(
+    _cosmetic(_nested_checked(3)) + "|" + _OPEN_CHECKED + "|" + _AFTER_OPEN)
+_TOKEN_RES = {(False, False): _FAST_TOKEN, (True, False): _FAST_TOKEN_NO_COSMETIC,
+              (False, True): _FAST_TOKEN_CHECKED, (True, True): _FAST_TOKEN_NO_COSMETIC_CHECKED}
 
 
 def parse(text: str, *, compat: bool = False, file: str | None = None,
-          drop_cosmetic: bool = False) -> list[Any]:
+          drop_cosmetic: bool = False, check_numbers: bool = True) -> list[Any]:
     """Parse the first S-expression in ``text`` into nested lists.
 
     ``compat=True`` reproduces kiutils' string handling exactly (only ``\\"`` is
-    unescaped). ``drop_cosmetic=True`` leaves out the lists named in
-    :data:`COSMETIC_HEADS` and placed-symbol pin uuids (up to four levels deep); the
-    rest of the tree is unchanged. Raises :class:`ParseError` naming ``file``, line and
-    column.
+    unescaped) and, like kiutils, accepts anything in numeric lists. ``drop_cosmetic=True``
+    leaves out the lists named in :data:`COSMETIC_HEADS` and placed-symbol pin uuids (up
+    to four levels deep); the rest of the tree is unchanged. Unless ``compat`` or
+    ``check_numbers=False``, a list named in :data:`NUMERIC_HEADS` holding anything but
+    numbers is malformed, dropped or not. Raises :class:`ParseError` naming ``file``, line
+    and column.
     """
+    checked = check_numbers and not compat
     with collector_paused():
-        token_re = _FAST_TOKEN_NO_COSMETIC if drop_cosmetic else _FAST_TOKEN
         try:
-            tree = _parse_fast(text, compat, token_re)
+            tree = _parse_fast(text, compat, _TOKEN_RES[drop_cosmetic, checked])
         except _NotFinite:
             tree = None
-        if tree is not None and drop_cosmetic and len(text) > CHUNK_CHARS:
+        if (isinstance(tree, list) and drop_cosmetic and len(text) > CHUNK_CHARS):
             # a cosmetic list cut by a chunk boundary was tokenized as ordinary lists
             tree = without_cosmetic(tree)
+        if tree is _BAD:
+            _parse_exact(text, compat, file)  # a truncated or unbalanced file says so first
+            _fail_numeric(text, file)
         if tree is None:
             tree = _parse_exact(text, compat, file)
+            if checked:
+                _fail_numeric(text, file, found_only=True)
             if drop_cosmetic:
                 tree = without_cosmetic(tree)
         return tree
@@ -192,8 +263,12 @@ def _chunks(text: str, token_re: re.Pattern[str]) -> Iterator[list[str]]:
         start = end
 
 
-def _parse_fast(text: str, compat: bool, token_re: re.Pattern[str]) -> list[Any] | None:
-    """The tree, or None where the exact path must decide (odd or malformed input)."""
+_BAD = object()  # the fast path met a numeric list holding something else
+
+
+def _parse_fast(text: str, compat: bool, token_re: re.Pattern[str]) -> Any:
+    """The tree; None where the exact path must decide (odd or malformed input); _BAD
+    at a numeric list that holds something else."""
     if "^" in text or (compat and "\\\\" in text):
         return None
     unescape = (lambda body: body.replace('\\"', '"')) if compat else _unescape
@@ -225,7 +300,20 @@ def _parse_fast(text: str, compat: bool, token_re: re.Pattern[str]) -> list[Any]
                 body = token[1:-1]
                 out.append(unescape(body) if "\\" in body else body)
             elif first == "(":
-                continue  # a whole cosmetic block, dropped on request
+                if token[-1] != ")":
+                    return _BAD
+                if token[1:4] in NUMERIC_PREFIXES:  # a whole numeric list
+                    if len(stack) >= MAX_DEPTH:
+                        return None
+                    items = token[1:-1].split(" ")
+                    for i in range(1, len(items)):
+                        word = items[i]
+                        value = recall(word)
+                        if value is None:
+                            value = memo[word] = _bare(word)
+                        items[i] = value
+                    out.append(items)
+                # else a whole cosmetic block, dropped on request
             else:
                 value = recall(token)
                 if value is None:
@@ -329,6 +417,46 @@ def _fail_unclosed(text: str, file: str | None) -> None:
         head = "(" + (word.group(1) if word else "")
         message += f" ('{head}' opened at line {line}, column {column} is never closed)"
     raise _error_at(text, end, message, file)
+
+
+_ARGUMENT = re.compile(r'\s*("(?:[^"\\]|\\.)*"|[^\s()]+|\(|\)|$)')
+_IS_NUMBER = re.compile(_EDITOR_NUMBER).fullmatch
+
+
+def _fail_numeric(text: str, file: str | None, found_only: bool = False) -> None:
+    """Raise a located :class:`ParseError` at the first value that is not a number in a
+    numeric list of ``text`` (as the fast tokenizer reads the text); with ``found_only``,
+    return when there is none."""
+    for match in _FAST_TOKEN_CHECKED.finditer(text):
+        token = match.group()
+        if len(token) > 1 and token[0] == "(" and token[-1] != ")":
+            break
+    else:
+        if found_only:
+            return
+        raise ParseError("expected numbers in a numeric list", file=file)  # pragma: no cover
+    head = token[1:].strip()
+    argument = _ARGUMENT.match(text, match.end())
+    index = 1
+    while argument is not None and _IS_NUMBER(argument.group(1)):
+        argument = _ARGUMENT.match(text, argument.end())
+        index += 1
+    if argument is None:  # pragma: no cover - the pattern matches at any position
+        raise _error_at(text, match.start(), f"expected numbers in '({head} ...)'", file)
+    value = argument.group(1)
+    found = {")": "nothing", "(": "a list", "": "the end of the file"}.get(value, repr(value))
+    what = _VALUE_NAMES.get(head, ())
+    named = f" for {what[index - 1]}" if index <= len(what) else ""
+    raise _error_at(text, argument.start(1), f"expected a number{named} in '({head} ...)', "
+                    f"found {found}", file)
+
+
+#: What the values of the usual numeric lists are, for the messages.
+_VALUE_NAMES = {"at": ("X", "Y", "the angle"), "xy": ("X", "Y"), "start": ("X", "Y"),
+                "end": ("X", "Y"), "mid": ("X", "Y"), "center": ("X", "Y"),
+                "size": ("the width", "the height"), "width": ("the width",),
+                "length": ("the length",), "diameter": ("the diameter",),
+                "radius": ("the radius",), "thickness": ("the thickness",)}
 
 
 def locate(text: str, path: tuple[int, ...]) -> tuple[int, int, str]:

@@ -31,8 +31,13 @@ def sarif(report: dict[str, Any], base: str | None = None) -> dict[str, Any]:
     results = []
     for design in report["designs"]:
         for f in design["findings"]:
-            location = {"physicalLocation": {"artifactLocation": {
+            location: dict[str, Any] = {"physicalLocation": {"artifactLocation": {
                 "uri": _uri(f.get("file") or design["file"], base)}}}
+            if f.get("line"):
+                region = {"startLine": f["line"]}
+                if f.get("column"):
+                    region["startColumn"] = f["column"]
+                location["physicalLocation"]["region"] = region
             if f["ref"]:  # the stage identifier of the text and Markdown outputs
                 name = f.get("stage") or f["ref"] + (f"/{f['unit']}" if f.get("unit") else "")
                 location["logicalLocations"] = [{"name": name, "kind": "element"}]

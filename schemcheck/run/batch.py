@@ -7,9 +7,11 @@ unreadable design becomes a finding on that file and the batch goes on.
 from __future__ import annotations
 
 import hashlib
+import json
 import os
 import sys
-from concurrent.futures import ProcessPoolExecutor
+import traceback
+from concurrent.futures import Future, ProcessPoolExecutor
 from dataclasses import replace
 from typing import TYPE_CHECKING, Any, Callable
 
@@ -26,6 +28,7 @@ if TYPE_CHECKING:
     from schemcheck.engine.partmatch import PartsLibrary
 
 UNREADABLE = "unreadable-design"
+AUDIT_FAILED = "audit-failed"
 
 
 def settings_for(root: str, base: Settings, overrides: dict[str, Any],
@@ -33,9 +36,10 @@ def settings_for(root: str, base: Settings, overrides: dict[str, Any],
     """Defaults < the settings file beside the design (or ``settings_path``) < options.
     The user-level parts library is added where the file exists."""
     from schemcheck.io.partslib import user_library_path
-    from schemcheck.io.settings_file import find_settings, load_settings
+    from schemcheck.io.resolve import settings_file
+    from schemcheck.io.settings_file import load_settings
 
-    path = settings_path or find_settings(root)
+    path = settings_file(root, settings_path)
     settings = load_settings(path, base) if path else base
     given = set(settings.given) | set(overrides.pop("given", ()))
     if settings.user_parts_library is None and "user_parts_library" not in overrides:
@@ -59,10 +63,18 @@ def design_key_for(design: DesignRef, settings: Settings) -> str | None:
         return None
 
 
-def submission_key(paths: list[str], overrides: dict[str, Any]) -> str:
-    """One key for everything under ``paths`` (the service's identical-submission test)."""
+def submission_key(paths: list[str], overrides: dict[str, Any], *,
+                   located: bool = False) -> str:
+    """One key for everything under ``paths`` (the service's identical-submission test).
+
+    The key is the designs' content, wherever they lie; ``located=True`` adds where they
+    lie, for answers that name the files where they are (a path submission), so two
+    copies of one design in two folders are not answered with each other's paths."""
     designs, _ = find_designs(paths)
     digest = hashlib.sha256()
+    if located:
+        for design in designs:
+            digest.update(design.root.encode() + b"\0")
     for design in designs:
         try:
             settings = settings_for(design.root, Settings(), dict(overrides))
@@ -74,11 +86,32 @@ def submission_key(paths: list[str], overrides: dict[str, Any]) -> str:
     return digest.hexdigest()
 
 
-def _unreadable(root: str, message: str, settings: Settings | None = None) -> dict[str, Any]:
-    finding = Finding(UNREADABLE, "error", "", None, message,
-                      "fix or re-save the file in the schematic editor", file=root)
+def _unreadable(root: str, message: str, settings: Settings | None = None, *,
+                error: SchemcheckError | None = None, rule: str = UNREADABLE,
+                suggestion: str = "fix or re-save the file in the schematic editor"
+                ) -> dict[str, Any]:
+    """The result of a design that could not be audited; the finding points at the file
+    (and line and column) ``error`` names, else at ``root``."""
+    where = error if isinstance(error, ParseError) else None
+    finding = Finding(rule, "error", "", None, message, suggestion,
+                      file=(where.file if where and where.file else root),
+                      line=where.line if where else None,
+                      column=where.column if where else None)
     return to_data(DesignResult(file=root, findings=[finding], errors=[message],
                                 settings=(settings or Settings()).describe()))
+
+
+def _failed(root: str, error: BaseException, settings: Settings | None = None
+            ) -> dict[str, Any]:
+    """The result of a design whose audit stopped on an error that is not the input's
+    fault: that design's error, named with the file; the batch goes on."""
+    frames = traceback.extract_tb(error.__traceback__)
+    at = f" at {os.path.basename(frames[-1].filename)}:{frames[-1].lineno}" if frames else ""
+    message = (f"{root}: the audit of this design stopped on an internal error "
+               f"({type(error).__name__}: {error}{at}); the design was not checked")
+    return _unreadable(root, message, settings, rule=AUDIT_FAILED,
+                       suggestion="report this with the design file; the other designs "
+                                  "were audited")
 
 
 #: path -> (content digest, entries): a library is parsed again only when its content
@@ -128,11 +161,12 @@ def audit_one(root: str, settings: Settings) -> dict[str, Any]:
                                file=named[0], line=named[1], column=named[2])
         return _unreadable(root, str(shown), settings)
     except SchemcheckError as error:
-        detail = str(error)
-        return _unreadable(root, detail, settings)
+        return _unreadable(root, str(error), settings, error=error)
     except OSError as error:
         name = error.filename or root
         return _unreadable(root, f"{name}: could not read ({error.strerror or error})", settings)
+    except Exception as error:  # noqa: BLE001 - one design's failure must not lose the batch
+        return _failed(root, error, settings)
 
 
 def _audit_task(args: tuple[str, Settings]) -> dict[str, Any]:
@@ -159,14 +193,14 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
         except PathNotAllowedError:
             raise
         except SchemcheckError as error:
-            results[index] = _unreadable(design.root, str(error))
+            results[index] = _unreadable(design.root, str(error), error=error)
             continue
         key = None
         if cache is not None:
             key = design_key_for(design, settings)
             hit = cache.get(key) if key else None
             if hit is not None:
-                results[index] = _moved(hit, design.root)
+                results[index] = rerooted(hit, design.root, settings)
                 hits += 1
                 continue
         todo.append((index, design, settings, key))
@@ -174,51 +208,90 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
     if progress:
         progress(done, len(designs))
     workers = max(1, min(jobs or os.cpu_count() or 1, len(todo)))
-    if workers == 1:
-        outputs = (audit_one(d.root, s) for _, d, s, _ in todo)
-        pool = None
-    else:
-        # each worker ends itself when this process dies, even by SIGKILL
-        pool = ProcessPoolExecutor(max_workers=workers, initializer=watch_parent,
-                                   initargs=(os.getpid(),))
-        outputs = pool.map(_audit_task, [(d.root, s) for _, d, s, _ in todo], chunksize=1)
+    # each worker ends itself when this process dies, even by SIGKILL
+    pool = (ProcessPoolExecutor(max_workers=workers, initializer=watch_parent,
+                                initargs=(os.getpid(),)) if workers > 1 else None)
     try:
-        for (index, design, _, key), result in zip(todo, outputs):
+        futures = ([pool.submit(_audit_task, (d.root, s)) for _, d, s, _ in todo]
+                   if pool is not None else [None] * len(todo))
+        for (index, design, settings, key), future in zip(todo, futures):
+            result = _outcome(future, design.root, settings)
             results[index] = result
             if cache is not None and key and not result["errors"]:
-                cache.put(key, design.root, result)
+                stored = portable(result, design.root)
+                if stored is not None:
+                    cache.put(key, design.root, stored)
             done += 1
             if progress:
                 progress(done, len(designs))
     finally:
         if pool is not None:
-            pool.shutdown()
+            pool.shutdown(cancel_futures=True)  # nothing left to run after an error
     for error in missing:
-        results.append(_unreadable(error.file or "", str(error)))
+        results.append(_unreadable(error.file or "", str(error), error=error))
     shown = [_shown(r) for r in results if r is not None]
-    report = to_data(Report(Tool("schemcheck", __version__),
-                            stats={"designs": len(shown), "from_cache": hits,
-                                   "audited": len(todo)},
+    # What depends on the designs only: a run answered from the cache reports the same.
+    report = to_data(Report(Tool("schemcheck", __version__), stats={"designs": len(shown)},
                             warnings=list(cache.warnings) if cache is not None else []))
     report["designs"] = shown  # already in their serialised form
     report["missing_parameters"] = to_data(missing_across(shown))
+    # How this run got there: not part of the report (see :func:`public`).
+    report["run"] = {"from_cache": hits, "audited": len(todo)}
     return report
 
 
-def _moved(result: dict[str, Any], root: str) -> dict[str, Any]:
-    """A stored result as the result of the design at ``root``: the key holds contents
-    and relative paths only, so an identical design elsewhere (a copy in another folder)
-    shares it, and the stored paths are moved to this design's folder."""
-    stored = os.path.dirname(result["file"])
-    here = os.path.dirname(root)
-    if stored == here:
-        return result
-    import json
+def public(report: dict[str, Any]) -> dict[str, Any]:
+    """``report`` as it is written and served: without how this run got there (how many
+    designs came from the cache), so a warm run's report is the cold run's byte for byte."""
+    return {key: value for key, value in report.items() if key != "run"}
 
-    def quoted(folder: str) -> str:
-        return json.dumps(folder + os.sep)[1:-1]
 
-    return json.loads(json.dumps(result).replace(quoted(stored), quoted(here)))
+def _outcome(future: Future | None, root: str, settings: Settings) -> dict[str, Any]:
+    """One design's result: audited here (``future`` None) or by a worker process. A
+    worker that died, or any error on the way back, is that design's error alone."""
+    if future is None:
+        return audit_one(root, settings)
+    try:
+        return future.result()
+    except Exception as error:  # noqa: BLE001 - a lost worker must not lose the batch
+        return _failed(root, error, settings)
+
+
+def portable(result: dict[str, Any], root: str) -> dict[str, Any] | None:
+    """``result`` (of the design rooted at ``root``) in the form the cache keeps: no path
+    of the design's own, file names relative to its folder, no settings (the run's own
+    are put back on read: they are part of the key). None when a path of the design's
+    folder is left in the text (such a result is not stored)."""
+    base = os.path.dirname(root)
+    stored = dict(result)  # same key order: the re-rooted copy dumps byte for byte alike
+    stored["file"] = ""
+    stored["settings"] = {}
+    stored["findings"] = [{**f, "file": os.path.relpath(f["file"], base) if f.get("file")
+                           else ""} for f in result["findings"]]
+    if json.dumps(base + os.sep)[1:-1] in json.dumps(stored):
+        return None
+    return stored
+
+
+def rerooted(stored: dict[str, Any], root: str, settings: Settings) -> dict[str, Any]:
+    """A cached result put back where the design rooted at ``root`` lies, audited with
+    ``settings``: what auditing it afresh gives."""
+    base = os.path.dirname(root)
+    result = dict(stored)
+    result["file"] = root
+    result["settings"] = settings.describe()
+    result["findings"] = [{**f, "file": _under(base, f["file"], root)}
+                          for f in stored["findings"]]
+    return result
+
+
+def _under(base: str, relative: str, root: str) -> str:
+    if not relative:
+        return ""
+    from schemcheck.io.resolve import normalised
+
+    path = normalised(os.path.join(base, relative))
+    return root if path == normalised(root) else path
 
 
 def _display(path: str) -> str:

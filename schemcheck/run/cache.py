@@ -3,7 +3,9 @@
 Keyed by the content hash of every file of a design, the parts library, the settings
 and the tool version, so an unchanged design is read back instead of re-audited. Each
 design's result is committed whole, so a killed run leaves a readable database. A
-corrupt or foreign database file is reported, moved aside and rebuilt, never trusted.
+corrupt or foreign database file is reported, moved aside and rebuilt, never trusted. A
+database that cannot be created or opened raises :class:`CacheUnavailable`; one that
+stops taking writes says so once in ``warnings`` and the run goes on without storing.
 """
 
 from __future__ import annotations
@@ -21,6 +23,17 @@ from schemcheck.io.files import check_allowed, read_bytes
 
 APP = "schemcheck-results"
 SCHEMA = 1
+#: The form of the stored results (part of every key): 2 = file names relative to the
+#: design's folder, keys in the report's order.
+RESULT_FORM = 2
+
+
+class CacheUnavailable(SchemcheckError):
+    """The results database cannot be created, opened or written where it was asked for."""
+
+
+#: SQLite's words for a file or folder it may not create or write.
+_UNWRITABLE = ("unable to open", "readonly", "read-only", "disk I/O error")
 
 
 def default_path() -> str:
@@ -49,7 +62,7 @@ def design_key(files: tuple[str, ...], settings: dict[str, Any],
         settings["parts_libraries"] = [{**item, "path": os.path.relpath(item["path"], base)}
                                        for item in settings["parts_libraries"]]
     digest = hashlib.sha256()
-    digest.update(f"schemcheck {__version__}\n".encode())
+    digest.update(f"schemcheck {__version__} results {RESULT_FORM}\n".encode())
     digest.update(json.dumps(settings, sort_keys=True, default=str).encode())
     for path in files:
         digest.update(os.path.relpath(path, base).encode() + b"\0")
@@ -104,7 +117,12 @@ class ResultCache:
     def __init__(self, path: str | None = None) -> None:
         self.path = path or default_path()
         self.warnings: list[str] = []
-        os.makedirs(os.path.dirname(os.path.abspath(self.path)), exist_ok=True)
+        self.storing = True
+        try:
+            os.makedirs(os.path.dirname(os.path.abspath(self.path)), exist_ok=True)
+        except OSError as error:
+            raise CacheUnavailable(f"{self.path}: cannot create the results database's folder "
+                                   f"({error.strerror or error})") from None
         self.db = self._open()
 
     def _open(self) -> sqlite3.Connection:
@@ -116,19 +134,30 @@ class ResultCache:
             if "locked" in str(error) or "busy" in str(error):
                 raise SchemcheckError(f"{self.path}: the results database is busy ({error}); "
                                       "try again, or use --no-cache") from None
+            if any(word in str(error) for word in _UNWRITABLE):
+                raise CacheUnavailable(f"{self.path}: cannot open the results database "
+                                       f"({error})") from None
             return self._rebuild(error)
         except sqlite3.DatabaseError as error:
             return self._rebuild(error)
+        except OSError as error:
+            raise CacheUnavailable(f"{self.path}: cannot open the results database "
+                                   f"({error.strerror or error})") from None
 
     def _rebuild(self, error: Exception) -> sqlite3.Connection:
         aside = f"{self.path}.broken-{int(time.time())}"
+        try:
+            for suffix in ("", "-wal", "-shm"):
+                if os.path.exists(self.path + suffix):
+                    os.replace(self.path + suffix, aside + suffix)
+            db = self._connect()
+            self._check(db)
+        except (OSError, sqlite3.Error) as failure:
+            raise CacheUnavailable(f"{self.path}: the results database is unreadable or not "
+                                   f"ours ({error}) and could not be rebuilt ({failure})"
+                                   ) from None
         self.warnings.append(f"{self.path}: the results database is unreadable or not ours "
                              f"({error}); moved to {aside} and rebuilt")
-        for suffix in ("", "-wal", "-shm"):
-            if os.path.exists(self.path + suffix):
-                os.replace(self.path + suffix, aside + suffix)
-        db = self._connect()
-        self._check(db)
         return db
 
     def _connect(self) -> sqlite3.Connection:
@@ -181,10 +210,19 @@ class ResultCache:
             return None
 
     def put(self, key: str, root: str, result: dict[str, Any]) -> None:
-        text = json.dumps(result, sort_keys=True, allow_nan=False)
-        with self.db:  # one transaction per design
-            self.db.execute("INSERT OR REPLACE INTO results VALUES (?, ?, ?, ?)",
-                            (key, root, time.time(), text))
+        """Store ``result`` (keys kept in their order). A database that no longer takes
+        writes (read-only, disk full) is said once in ``warnings``; nothing is raised."""
+        if not self.storing:
+            return
+        text = json.dumps(result, allow_nan=False)
+        try:
+            with self.db:  # one transaction per design
+                self.db.execute("INSERT OR REPLACE INTO results VALUES (?, ?, ?, ?)",
+                                (key, root, time.time(), text))
+        except sqlite3.Error as error:
+            self.storing = False
+            self.warnings.append(f"{self.path}: could not store results ({error}); the rest "
+                                 "of this run is not cached")
 
     def close(self) -> None:
         self.db.close()

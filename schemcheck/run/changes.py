@@ -15,7 +15,7 @@ import subprocess
 from typing import Any
 
 from schemcheck.errors import SchemcheckError
-from schemcheck.io.discover import DesignRef, referenced_sheets
+from schemcheck.io.discover import DesignRef, named_sheets
 from schemcheck.settings import Settings
 
 
@@ -92,7 +92,7 @@ def design_inputs(design: DesignRef, settings: Settings | None,
     files = set(design.files)
     for sheet in design.files:
         if sheet.endswith(".kicad_sch"):
-            files.update(referenced_sheets(sheet))
+            files.update(named_sheets(sheet))
     folder = os.path.dirname(design.root)
     files.add(settings_path or os.path.join(folder, SETTINGS_NAME))
     if settings is not None:  # the user's, the project's and the command line's libraries
