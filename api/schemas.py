@@ -72,6 +72,9 @@ class StageSchema(Schema):
     worst_case_over_temp_v = _num()
     worst_temp_c = _num()
     monte_carlo_v = _num()
+    monte_carlo_samples = fields.Integer(allow_none=True, metadata={
+        "description": "Monte Carlo samples behind monte_carlo_v (fewer than asked where "
+                       "the design was too large for them; the assumptions say so)"})
     rti_v = _num()
     budget_v = _num()
     within_budget = fields.Boolean(allow_none=True)

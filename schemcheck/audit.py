@@ -10,9 +10,10 @@ from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
 from schemcheck import checks
-from schemcheck.engine.budget import StageBudget, monte_carlo, stage_budget
+from schemcheck.engine.budget import StageBudget, stage_budget
 from schemcheck.checks.context import StageContext
 from schemcheck.engine.dcerror import Solution, solve
+from schemcheck.engine.montecarlo import MonteCarloRun, monte_carlo_run
 from schemcheck.model import Finding, Netlist, natural_key
 from schemcheck.engine.network import Network, build_network
 from schemcheck.engine.params import OpampParams, ParameterError, resolve
@@ -82,10 +83,11 @@ def audit_netlist(netlist: Netlist, settings: Settings,
         params.append(p)
         op.aol = p.aol
     solution = solve(network)
+    problems.extend(solution.notes)
     budgets = [stage_budget(solution, k, params, settings.temp_range)
                for k in range(len(network.opamps))]
-    mc = monte_carlo(network, solution, params, settings.temp_range, settings.mc_samples,
-                     settings.seed) if settings.mc_samples > 0 else {}
+    mc = monte_carlo_run(network, solution, params, settings.temp_range, settings.mc_samples,
+                         settings.seed, settings.mc_solve)
     limits = [_budget_limit(op.unit.part, settings, problems) for op in network.opamps]
     ctx = StageContext(network, solution, params, budgets, limits, settings.temp_range)
     findings: list[Finding] = []
@@ -101,7 +103,7 @@ def audit_netlist(netlist: Netlist, settings: Settings,
                        for f in findings if f.rule not in settings.disabled_rules]
     result.stages = [_stage_dict(network, solution, params, budgets, mc, limits, k)
                      for k in range(len(network.opamps))]
-    result.assumptions = _assumptions(network, solution, settings, params) + [
+    result.assumptions = _assumptions(network, solution, settings, params) + mc.notes + [
         f"problem: {p}" for p in problems]
     if skipped:
         result.assumptions.append("amplifiers recognised but not analysed (listed under "
@@ -117,7 +119,7 @@ def _params_dict(p: OpampParams) -> dict[str, Any]:
 
 
 def _stage_dict(network: Network, solution: Solution, params: list[OpampParams],
-                budgets: list[StageBudget], mc: dict[int, float | None],
+                budgets: list[StageBudget], mc: MonteCarloRun,
                 limits: list[float | None], k: int) -> dict[str, Any]:
     op = network.opamps[k]
     part = op.unit.part
@@ -145,7 +147,8 @@ def _stage_dict(network: Network, solution: Solution, params: list[OpampParams],
         "rss_v": budget.rss_v,
         "worst_case_over_temp_v": worst,
         "worst_temp_c": budget.worst_temp_c,
-        "monte_carlo_v": mc.get(k),
+        "monte_carlo_v": mc.bounds.get(k),
+        "monte_carlo_samples": mc.samples.get(k),
         "rti_v": (worst / abs(noise_gain)) if worst is not None and noise_gain else None,
         "budget_v": limit,
         "within_budget": (worst <= limit) if worst is not None and limit is not None else None,
@@ -167,8 +170,8 @@ def _assumptions(network: Network, solution: Solution, settings: Settings,
         f"resistors without a Tolerance field: ±{settings.default_tolerance:.2%}"
         + ("" if "default_tolerance" in given else " (default)"),
         "Monte Carlo: resistors uniform within tolerance; Vos, Ib, Ios Gaussian with the "
-        f"maximum as 3 sigma and random sign; {settings.mc_samples} samples, seed "
-        f"{settings.seed}; 99.7 % bound at the worse end of the temperature range",
+        f"maximum as 3 sigma, truncated at the maximum, and random sign; {settings.mc_samples} "
+        f"samples, seed {settings.seed}; 99.7 % bound at the worse end of the temperature range",
         "without hot values, FET-input bias currents double every 10 °C and bipolar ones "
         "are flat; hot values apply at the part's T_hot or else at the top of the range",
         "referred-to-input figures divide the output error by the noise gain",

@@ -15,6 +15,13 @@ from schemcheck.errors import SchemcheckError
 EXIT_FINDINGS = 1
 EXIT_BAD_INPUT = 2
 
+# One BLAS thread per process (before numpy is first imported): an audit's linear algebra
+# is many small products, which extra threads only slow down (each hand-off stalls while
+# the other cores are busy), and a batch runs one worker process per core. A value the
+# user set is kept.
+for _variable in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_variable, "1")
+
 
 def _format_option(choices: tuple[str, ...], default: str) -> Callable[[Any], Any]:
     return click.option("--format", "fmt", type=click.Choice(choices), default=default,
@@ -103,6 +110,10 @@ def netlist(path: str, fmt: str) -> None:
 @click.option("--samples", "samples", type=click.IntRange(0, 1_000_000), default=None,
               help="Monte Carlo samples per network (default 10000; 0 turns it off).")
 @click.option("--seed", "seed", type=int, default=None, help="Monte Carlo seed (default 1).")
+@click.option("--mc-solve", "mc_solve", type=click.Choice(("update", "full")), default=None,
+              help="How each Monte Carlo sample is solved: 'update' (default; the nominal "
+                   "solution with low-rank resistor updates) or 'full' (a full solve per "
+                   "sample; slower, the reference).")
 @click.option("--settings", "settings_path", type=click.Path(dir_okay=False, path_type=str),
               default=None, help="Settings file to use instead of schemcheck.toml beside "
                                  "each design.")
@@ -117,8 +128,8 @@ def netlist(path: str, fmt: str) -> None:
 @_reports_errors
 def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None,
           parts: str | None, budget: str | None, samples: int | None, seed: int | None,
-          settings_path: str | None, jobs: int | None, fail_on: str, no_cache: bool,
-          cache_file: str | None) -> None:
+          mc_solve: str | None, settings_path: str | None, jobs: int | None, fail_on: str,
+          no_cache: bool, cache_file: str | None) -> None:
     """Audit the DC output error of every op-amp stage of one or many designs.
 
     PATHS are schematics, exported netlists, project folders or folders of many
@@ -137,7 +148,7 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
     from schemcheck.run.runner import options_to_overrides
 
     overrides = options_to_overrides(temp=temp, parts=parts, budget=budget, samples=samples,
-                                     seed=seed)
+                                     seed=seed, mc_solve=mc_solve)
     cache = None
     if not no_cache:
         from schemcheck.run.cache import ResultCache

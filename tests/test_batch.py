@@ -115,8 +115,10 @@ def test_cache_returns_identical_results_and_reaudits_changes(library, tmp_path)
 
 def test_killed_run_leaves_a_readable_database(library, tmp_path):
     cache_path = tmp_path / "killed.sqlite3"
+    # the full per-sample solve keeps each design busy long enough to be killed mid-run
     command = [sys.executable, "-m", "schemcheck", "audit", str(library), "--jobs", "1",
-               "--cache-file", str(cache_path), "--samples", "20000", "--format", "json"]
+               "--cache-file", str(cache_path), "--samples", "50000", "--mc-solve", "full",
+               "--format", "json"]
     proc = subprocess.Popen(command, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     deadline = time.time() + 60
     rows = 0

@@ -8,9 +8,10 @@ For the output of stage k and each op-amp j whose sources reach it:
 * RSS: the root of the sum of the squares of the same terms;
 * over temperature: the worst case at each end of the operating range (parameters by
   :func:`schemcheck.params.at_temperature`), the larger one;
-* Monte Carlo (seeded, vectorised): resistors uniform within their tolerance; every
-  Vos, Ib and Ios Gaussian with the datasheet maximum as 3 sigma and a random sign;
-  the 99.7th percentile of the output error's magnitude, at the worse end of the range.
+* Monte Carlo (seeded, vectorised; :mod:`schemcheck.engine.montecarlo`): resistors
+  uniform within their tolerance; every Vos, Ib and Ios Gaussian with the datasheet
+  maximum as 3 sigma, truncated at that maximum, and a random sign; the 99.7th
+  percentile of the output error's magnitude, at the worse end of the range.
 """
 
 from __future__ import annotations
@@ -18,14 +19,9 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-import numpy as np
-
 from schemcheck.engine.dcerror import Solution
 from schemcheck.engine.network import Network
 from schemcheck.engine.params import AtTemperature, OpampParams, at_temperature
-
-MC_PERCENTILE = 99.7
-
 
 @dataclass(slots=True)
 class StageBudget:
@@ -99,104 +95,10 @@ def total_at(solution: Solution, k: int, params: list[OpampParams], temp: float,
 
 def monte_carlo(network: Network, solution: Solution, params: list[OpampParams],
                 temp_range: tuple[float, float], samples: int, seed: int,
-                chunk_values: int = 4_000_000) -> dict[int, float | None]:
-    """99.7th-percentile output error of every solved op-amp.
+                solve: str = "update") -> dict[int, float | None]:
+    """99.7th-percentile output error of every solved op-amp, volts (see
+    :mod:`schemcheck.engine.montecarlo`, whose ``monte_carlo_run`` also says how many
+    samples were used and why fewer)."""
+    from schemcheck.engine.montecarlo import monte_carlo_run
 
-    Every network piece of one matrix size is sampled and solved together in one
-    stacked ``numpy.linalg.solve`` (in chunks of about ``chunk_values`` matrix entries),
-    so a sheet of many small stages costs a few large numpy calls, not many small ones.
-    """
-    rng = np.random.default_rng(seed)
-    low, high = temp_range
-    result: dict[int, float | None] = {}
-    groups: dict[int, list] = {}
-    for system in solution.systems:
-        ops = system.component.opamps
-        if any(solution.status[k] == "unsolvable" for k in ops) or not system.out_rows:
-            result.update({k: None for k in system.out_rows})
-            continue
-        groups.setdefault(system.base.shape[0], []).append(system)
-    for size, systems in sorted(groups.items()):
-        errors = _group_errors(network, solution, params, systems, size, (low, high), samples,
-                               rng, chunk_values)
-        for g, system in enumerate(systems):
-            incomplete = {j for j in system.component.opamps if not params[j].complete}
-            bounds = np.percentile(np.abs(errors[g]), MC_PERCENTILE, axis=0)
-            for column, k in enumerate(system.out_rows):
-                if (solution.status[k] != "ok" or solution.tainted[k]
-                        or any(j in incomplete for j in reaching(solution, k))):
-                    result[k] = None
-                else:
-                    result[k] = float(bounds[column])
-    return result
-
-
-def _group_errors(network: Network, solution: Solution, params: list[OpampParams], systems: list,
-                  size: int, temp_range: tuple[float, float], samples: int,
-                  rng: np.random.Generator, chunk_values: int) -> np.ndarray:
-    """Output errors (systems, samples, outputs) of same-size systems, solved stacked."""
-    low, high = temp_range
-    count = len(systems)
-    n_res = max(len(s.stamps) for s in systems)
-    n_col = max(len(s.columns) for s in systems)
-    n_out = max(len(s.out_rows) for s in systems)
-    base = np.stack([s.base for s in systems])  # (G, n, n)
-    rhs = np.zeros((count, size, n_col))
-    nominal = np.zeros((count, n_res))
-    tolerance = np.zeros((count, n_res))
-    # stamp pattern of every resistor slot: +1 on the diagonal, -1 off it, 0 for fixed nets
-    stamps = np.zeros((count, n_res, size, size))
-    out_rows = np.zeros((count, n_out), dtype=int)
-    sigma = np.zeros((count, n_col))  # 3-sigma = maximum at the group's temperature
-    kind = np.full((count, n_col), 3)  # 0 vos, 1 ib_plus, 2 ib_minus, 3 none
-    owner = np.zeros((count, n_col), dtype=int)  # column's op-amp, within the group
-    opamp_index: dict[int, int] = {}
-    ios_max: list[float] = []  # per op-amp of the group, at its system's temperature
-    for g, system in enumerate(systems):
-        rhs[g, :, :len(system.columns)] = system.rhs
-        for r, ((i, j), cond, index) in enumerate(zip(system.stamps, system.conductance,
-                                                      system.component.resistors)):
-            nominal[g, r] = cond
-            tolerance[g, r] = network.resistors[index].tolerance
-            for a, b, sign in ((i, i, 1.0), (j, j, 1.0), (i, j, -1.0), (j, i, -1.0)):
-                if a >= 0 and b >= 0:
-                    stamps[g, r, a, b] += sign
-        out_rows[g, :len(system.out_rows)] = list(system.out_rows.values())
-        solved = [k for k in system.out_rows if solution.status[k] == "ok"]
-        temp = max(sorted({low, high}, reverse=True),
-                   key=lambda t: sum(total_at(solution, k, params, t, high) for k in solved))
-        for c, (j, source) in enumerate(system.columns):
-            if source == "unknown":
-                continue
-            p = at_temperature(params[j], temp, high)
-            if j not in opamp_index:
-                opamp_index[j] = len(opamp_index)
-                ios_max.append(p.ios or 0.0)
-            owner[g, c] = opamp_index[j]
-            kind[g, c] = ("vos", "ib_plus", "ib_minus").index(source)
-            sigma[g, c] = (p.vos if source == "vos" else p.ib) or 0.0
-    ios_sigma = np.array(ios_max)
-    out = np.empty((count, samples, n_out))
-    per_chunk = max(1, chunk_values // max(1, count * size * size))
-    for start in range(0, samples, per_chunk):
-        n = min(per_chunk, samples - start)
-        spread = rng.uniform(-1.0, 1.0, size=(count, n, n_res))
-        g_values = nominal[:, None, :] / (1.0 + spread * tolerance[:, None, :])
-        a = np.einsum("gsr,grij->gsij", g_values, stamps)
-        a += base[:, None]
-        unit = rng.normal(size=(3, n, len(opamp_index)))  # vos, ib, ios per op-amp
-        draws = np.empty((4, n, len(opamp_index)))
-        draws[0] = unit[0]
-        ios = unit[2] * (ios_sigma / 3.0)
-        draws[1] = unit[1]
-        draws[2] = unit[1]
-        draws[3] = 0.0
-        values = draws[kind, :, owner]  # (G, cols, n)
-        values = values * (sigma / 3.0)[:, :, None]
-        ios_part = ios[:, owner].transpose(1, 2, 0) / 2.0  # (G, cols, n)
-        values = values + np.where((kind == 1)[:, :, None], ios_part, 0.0)
-        values = values - np.where((kind == 2)[:, :, None], ios_part, 0.0)
-        b = np.ascontiguousarray(np.einsum("gcs,gnc->gsn", values, rhs))
-        x = np.linalg.solve(a, b[..., None])[..., 0]  # (G, n, size)
-        out[:, start:start + n] = np.take_along_axis(x, out_rows[:, None, :], axis=2)
-    return out
+    return monte_carlo_run(network, solution, params, temp_range, samples, seed, solve).bounds

@@ -6,6 +6,7 @@
     parts_library = "parts.toml"      # relative to this file
     rules_off = ["missing-parameters"]
     monte_carlo_samples = 10000
+    monte_carlo_solve = "update"      # or "full": a full solve per sample (slower)
     seed = 1
     [source_resistance]               # nets driven from outside the design
     BRIDGE = "350"
@@ -22,13 +23,13 @@ from typing import Any
 
 from schemcheck.rules import RULES
 from schemcheck.errors import ParseError
-from schemcheck.run.settings import Settings
+from schemcheck.run.settings import MC_SOLVES, Settings
 from schemcheck.units import ValueFormatError, parse_quantity, parse_resistance, parse_tolerance
 from schemcheck.io.files import read_text
 
 SETTINGS_NAME = "schemcheck.toml"
 _KEYS = ("temperature_range", "default_budget", "default_tolerance", "parts_library",
-         "rules_off", "monte_carlo_samples", "seed", "source_resistance")
+         "rules_off", "monte_carlo_samples", "monte_carlo_solve", "seed", "source_resistance")
 
 
 def find_settings(design_root: str) -> str | None:
@@ -101,6 +102,10 @@ def apply_settings(data: dict[str, Any], path: str, base: Settings) -> Settings:
         if not isinstance(value, int) or not 0 <= value <= 1_000_000:
             raise bad("monte_carlo_samples", "a whole number from 0 to 1000000")
         changes["mc_samples"] = value
+    if "monte_carlo_solve" in data:
+        if data["monte_carlo_solve"] not in MC_SOLVES:
+            raise bad("monte_carlo_solve", " or ".join(f'"{m}"' for m in MC_SOLVES))
+        changes["mc_solve"] = data["monte_carlo_solve"]
     if "seed" in data:
         if not isinstance(data["seed"], int):
             raise bad("seed", "a whole number")

@@ -10,7 +10,8 @@ from schemcheck.units import ValueFormatError, parse_quantity, parse_temperature
 
 def options_to_overrides(*, temp: str | None = None, parts: str | None = None,
                          budget: str | None = None, samples: int | None = None,
-                         seed: int | None = None) -> dict[str, Any]:
+                         seed: int | None = None,
+                         mc_solve: str | None = None) -> dict[str, Any]:
     """Settings values given on the command line (they override the settings file)."""
     changes: dict[str, Any] = {}
     given: list[str] = []
@@ -29,6 +30,8 @@ def options_to_overrides(*, temp: str | None = None, parts: str | None = None,
         changes["mc_samples"] = samples
     if seed is not None:
         changes["seed"] = seed
+    if mc_solve is not None:
+        changes["mc_solve"] = mc_solve
     if given:
         changes["given"] = tuple(given)
     return changes
