@@ -68,6 +68,7 @@ _LEVELS = 1 << 16  # each draw is one of 65536 equally likely levels (16 random 
 #: 2.6e5 multiply-adds a call), whose thread hand-offs stall on a busy machine
 _CHUNK_SAMPLES = 16384
 _FULL_MATRIX_VALUES = 1 << 22  # entries of the stacked per-sample matrices of one sub-chunk
+_SEGMENT_VALUES = 1 << 23  # numbers of the per-network tables held at once
 
 
 @dataclass(slots=True)
@@ -201,42 +202,62 @@ def _run_group(solution: Solution, params: list[OpampParams], members: list[_Net
     per_chunk = min(samples, max(keep, min(_CHUNK_SAMPLES, chunk_values // width)))
     per_block = max(1, chunk_values // (width * per_chunk))
     quantiles = _normal_quantiles()
-    full = _Full(members)
-    model = _Model(members, full) if solve == "update" else None
-    # resistor r: R = R0 x, x uniform in [1 - tol, 1 + tol] (the middles of _LEVELS equal
-    # steps); its conductance changes by the factor 1/x
-    step = (2.0 * full.tol / _LEVELS).astype(np.float32)[:, :, None]
-    low = (1.0 - full.tol).astype(np.float32)[:, :, None] + step / 2
-    for first in range(0, len(members), per_block):
-        block = slice(first, min(len(members), first + per_block))
-        count = block.stop - block.start
-        rng = np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(number, first)))
-        tail = _UpperTail(keep, per_chunk)
-        for start in range(0, samples, per_chunk):
-            n = min(per_chunk, samples - start)
-            levels = _uniform_levels(rng, (count, n_res + n_z, n))
-            relative = levels[:, :n_res].astype(np.float32)
-            relative *= step[block]
-            relative += low[block]
-            np.reciprocal(relative, out=relative)
-            relative -= 1.0
-            draws = quantiles[levels[:, n_res:]]
-            if model is not None:
-                errors = model.outputs(block, relative, draws, max_iterations)
-            else:
-                errors = full.outputs(block, relative, draws)
-            np.abs(errors, out=errors)
-            tail.add(errors.reshape(count * n_out, n))
-        bounds = tail.percentile().reshape(count, n_out)
-        for g, net in enumerate(members[block]):
-            incomplete = {j for j in net.system.component.opamps if not params[j].complete}
-            for column, k in enumerate(net.outputs):
-                run.samples[k] = samples
-                if (solution.status[k] != "ok" or solution.tainted[k]
-                        or any(j in incomplete for j in reaching(solution, k))):
-                    run.bounds[k] = None
+    # networks whose nominal matrices and update tables are held at once: about
+    # _SEGMENT_VALUES numbers
+    size = shape[0] + 1
+    footprint = 3 * size * size + (3 * n_res + n_z + n_out) * size + 2 * n_res * n_res + 64
+    per_segment = max(1, _SEGMENT_VALUES // (footprint * per_block)) * per_block
+    for offset in range(0, len(members), per_segment):
+        segment = members[offset:offset + per_segment]
+        full = _Full(segment)
+        model = _Model(segment, full) if solve == "update" else None
+        # resistor r: R = R0 x, x uniform in [1 - tol, 1 + tol] (the middles of _LEVELS
+        # equal steps); its conductance changes by the factor 1/x
+        step = (2.0 * full.tol / _LEVELS).astype(np.float32)[:, :, None]
+        low = (1.0 - full.tol).astype(np.float32)[:, :, None] + step / 2
+        for first in range(0, len(segment), per_block):
+            block = slice(first, min(len(segment), first + per_block))
+            count = block.stop - block.start
+            rng = np.random.default_rng(np.random.SeedSequence(
+                seed, spawn_key=(number, offset + first)))
+            tail = _UpperTail(keep, per_chunk)
+            for start in range(0, samples, per_chunk):
+                n = min(per_chunk, samples - start)
+                levels = _uniform_levels(rng, (count, n_res + n_z, n))
+                relative = levels[:, :n_res].astype(np.float32)
+                relative *= step[block]
+                relative += low[block]
+                np.reciprocal(relative, out=relative)
+                relative -= 1.0
+                draws = quantiles[levels[:, n_res:]]
+                if model is not None:
+                    errors = model.outputs(block, relative, draws, max_iterations)
                 else:
-                    run.bounds[k] = float(bounds[g, column])
+                    errors = full.outputs(block, relative, draws)
+                np.abs(errors, out=errors)
+                tail.add(errors.reshape(count * n_out, n))
+            bounds = tail.percentile().reshape(count, n_out)
+            for g, net in enumerate(segment[block]):
+                _record(solution, params, net, bounds[g], samples, run)
+
+
+def _record(solution: Solution, params: list[OpampParams], net: _Network, bounds: np.ndarray,
+            samples: int, run: MonteCarloRun) -> None:
+    """One network's bounds; None where an output is not solved, depends on an undefined
+    output or on an op-amp without parameters."""
+    incomplete = {j for j in net.system.component.opamps if not params[j].complete}
+    for column, k in enumerate(net.outputs):
+        run.samples[k] = samples
+        if (solution.status[k] != "ok" or solution.tainted[k]
+                or any(j in incomplete for j in reaching(solution, k))):
+            run.bounds[k] = None
+        else:
+            run.bounds[k] = float(bounds[column])
+
+
+def prepare() -> None:
+    """Build the tables every Monte Carlo uses (before worker processes are forked)."""
+    _normal_quantiles()
 
 
 def _uniform_levels(rng: np.random.Generator, shape: tuple[int, ...]) -> np.ndarray:
@@ -288,7 +309,7 @@ class _Full:
         self.owners = np.array(owners, dtype=int)
         self.base_flat = self.base.reshape(len(members), size * size)
         self.stamps = None
-        if 4 * n_res * size * size <= 1 << 16:  # one-hot rows: stamp entry -> matrix entry
+        if len(members) * 4 * n_res * size * size <= 1 << 22:  # one-hot: entry -> position
             self.stamps = np.zeros((len(members), 4 * n_res, size * size))
             np.put_along_axis(self.stamps, self.positions[:, :, None], 1.0, axis=2)
 
