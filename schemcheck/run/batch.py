@@ -96,6 +96,16 @@ def _audit_task(args: tuple[str, Settings]) -> dict[str, Any]:
     return audit_one(*args)
 
 
+def _prepare_workers() -> None:
+    """Import and set up here what every audit needs, once, so that forked workers start
+    with it instead of each paying for it on its first design."""
+    import schemcheck.circuit.load  # noqa: F401
+    import schemcheck.io.partslib  # noqa: F401
+    from schemcheck.engine.montecarlo import prepare
+
+    prepare()
+
+
 def audit_paths(paths: list[str], *, base: Settings | None = None,
                 overrides: dict[str, Any] | None = None, settings_path: str | None = None,
                 jobs: int | None = None, cache: Any = None,
@@ -129,8 +139,12 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
         outputs = (audit_one(d.root, s) for _, d, s, _ in todo)
         pool = None
     else:
+        _prepare_workers()
         pool = ProcessPoolExecutor(max_workers=workers)
-        outputs = pool.map(_audit_task, [(d.root, s) for _, d, s, _ in todo], chunksize=1)
+        # a few tasks a message: one result at a time kept each worker waiting on the parent
+        # (a third process on busy cores) to hand it the next design
+        chunk = max(1, min(8, len(todo) // (4 * workers)))
+        outputs = pool.map(_audit_task, [(d.root, s) for _, d, s, _ in todo], chunksize=chunk)
     try:
         for (index, design, _, key), result in zip(todo, outputs):
             results[index] = result
