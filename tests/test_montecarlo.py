@@ -295,3 +295,24 @@ def test_million_samples_in_bounded_memory(design, tmp_path):
     assert all(s["monte_carlo_v"] > 0 for s in report["stages"])
     notes = [a for a in report["assumptions"] if "samples used of the 1000000 requested" in a]
     assert len(notes) == 1
+
+
+def test_singular_samples_give_no_bound_and_say_so(monkeypatch):
+    # a sample whose matrix is singular is solved as nan (numpy.linalg.solve raises for
+    # it; the others are solved as numpy solves them), and its network gets no bound
+    a = np.stack([np.eye(2), np.zeros((2, 2)), 2 * np.eye(2)])
+    x = mc._solve_each(a, np.ones((3, 2)))
+    np.testing.assert_array_equal(x[[0, 2]], np.linalg.solve(a[[0, 2]], np.ones((2, 2, 1)))[..., 0])
+    assert np.isnan(x[1]).all()
+    original = mc._Model.outputs
+
+    def one_nan(self, block, relative, draws, iterations):
+        errors = original(self, block, relative, draws, iterations)
+        errors[0, 0, 5] = np.nan
+        return errors
+
+    monkeypatch.setattr(mc._Model, "outputs", one_nan)
+    result = audit_netlist(circuit(*CASES["finite-gain@1%"]), Settings(mc_samples=2000))
+    assert result.stages[0]["monte_carlo_v"] is None
+    assert ("Monte Carlo of U1/1: some resistor values within their tolerance leave its "
+            "network without a solution (singular); no Monte Carlo bound") in result.assumptions

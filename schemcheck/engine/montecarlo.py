@@ -86,6 +86,7 @@ class _Network:
 
     system: System
     outputs: list[int]  # op-amp indices in out_rows order
+    names: list[str]  # their references, for notes
     res_a: np.ndarray  # matrix rows of the varied resistors' ends (-1 = a fixed net)
     res_b: np.ndarray
     g0: np.ndarray  # nominal conductance, siemens
@@ -122,7 +123,8 @@ def _prepare(network: Network, solution: Solution, params: list[OpampParams], sy
               if network.resistors[index].tolerance > 0.0 and (a >= 0 or b >= 0)]
     ends = np.array([system.stamps[r] for r in varied], dtype=int).reshape(-1, 2)
     tolerance = [network.resistors[system.component.resistors[r]].tolerance for r in varied]
-    return _Network(system, list(system.out_rows), ends[:, 0], ends[:, 1],
+    return _Network(system, list(system.out_rows),
+                    [_name(network, k) for k in system.out_rows], ends[:, 0], ends[:, 1],
                     system.conductance[varied], np.array(tolerance), mix)
 
 
@@ -158,13 +160,13 @@ def monte_carlo_run(network: Network, solution: Solution, params: list[OpampPara
             continue
         nets.append(_prepare(network, solution, params, system, temp_range))
     too_large = [n for n in nets if _cost(n.shape, solve) * MIN_SAMPLES > work_limit]
+    nets = [n for n in nets if _cost(n.shape, solve) * MIN_SAMPLES <= work_limit]
     for net in too_large:
         run.bounds.update({k: None for k in net.outputs})
-        refs = ", ".join(_name(network, k) for k in net.outputs)
+        refs = ", ".join(net.names)
         run.notes.append(f"Monte Carlo: the network of {refs} ({net.shape[0]} unknowns, "
                          f"{net.shape[1]} resistors with a tolerance) is too large for "
                          f"{MIN_SAMPLES} samples within the work limit; no Monte Carlo bound")
-    nets = [n for n in nets if all(n is not t for t in too_large)]
     work = sum(_cost(n.shape, solve) for n in nets)
     used = samples
     if work * samples > work_limit:
@@ -221,6 +223,7 @@ def _run_group(solution: Solution, params: list[OpampParams], members: list[_Net
             rng = np.random.default_rng(np.random.SeedSequence(
                 seed, spawn_key=(number, offset + first)))
             tail = _UpperTail(keep, per_chunk)
+            undefined = np.zeros((count, n_out), dtype=bool)
             for start in range(0, samples, per_chunk):
                 n = min(per_chunk, samples - start)
                 levels = _uniform_levels(rng, (count, n_res + n_z, n))
@@ -235,8 +238,11 @@ def _run_group(solution: Solution, params: list[OpampParams], members: list[_Net
                 else:
                     errors = full.outputs(block, relative, draws)
                 np.abs(errors, out=errors)
+                if not np.isfinite(errors).all():  # a singular sample, or overflow
+                    undefined |= ~np.isfinite(errors).all(axis=2)
                 tail.add(errors.reshape(count * n_out, n))
             bounds = tail.percentile().reshape(count, n_out)
+            bounds[undefined] = np.nan
             for g, net in enumerate(segment[block]):
                 _record(solution, params, net, bounds[g], samples, run)
 
@@ -244,13 +250,18 @@ def _run_group(solution: Solution, params: list[OpampParams], members: list[_Net
 def _record(solution: Solution, params: list[OpampParams], net: _Network, bounds: np.ndarray,
             samples: int, run: MonteCarloRun) -> None:
     """One network's bounds; None where an output is not solved, depends on an undefined
-    output or on an op-amp without parameters."""
+    output or on an op-amp without parameters, or a sample had no solution (nan)."""
     incomplete = {j for j in net.system.component.opamps if not params[j].complete}
     for column, k in enumerate(net.outputs):
         run.samples[k] = samples
         if (solution.status[k] != "ok" or solution.tainted[k]
                 or any(j in incomplete for j in reaching(solution, k))):
             run.bounds[k] = None
+        elif not math.isfinite(bounds[column]):
+            run.bounds[k] = None
+            run.notes.append(f"Monte Carlo of {net.names[column]}: some resistor values within "
+                             "their tolerance leave its network without a solution (singular); "
+                             "no Monte Carlo bound")
         else:
             run.bounds[k] = float(bounds[column])
 
@@ -351,8 +362,22 @@ class _Full:
             rows = np.broadcast_to(np.arange(len(g))[:, None], values.shape)
             np.add.at(a, (rows, self.positions[g]), values)
         b = np.einsum("sij,sj->si", self.rhs[g], draws.astype(float))
-        x = np.linalg.solve(a.reshape(len(g), size, size), b[..., None])[..., 0]
+        x = _solve_each(a.reshape(len(g), size, size), b)
         return np.take_along_axis(x, self.out_rows[g], axis=1)
+
+
+def _solve_each(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Stacked solves; nan for a singular sample (the caller reports no bound)."""
+    try:
+        return np.linalg.solve(a, b[..., None])[..., 0]
+    except np.linalg.LinAlgError:
+        x = np.full(b.shape, np.nan)
+        for i in range(len(a)):
+            try:
+                x[i] = np.linalg.solve(a[i], b[i])
+            except np.linalg.LinAlgError:
+                pass
+        return x
 
 
 class _Model:
