@@ -316,3 +316,30 @@ def test_singular_samples_give_no_bound_and_say_so(monkeypatch):
     assert result.stages[0]["monte_carlo_v"] is None
     assert ("Monte Carlo of U1/1: some resistor values within their tolerance leave its "
             "network without a solution (singular); no Monte Carlo bound") in result.assumptions
+
+
+def test_solve_is_chosen_by_settings_file_and_option(tmp_path):
+    from click.testing import CliRunner
+
+    from schemcheck.cli import main
+    from schemcheck.run.batch import audit_paths
+
+    from .test_batch import _design
+
+    (tmp_path / "board.kicad_sch").write_text(_design(1), encoding="utf-8")
+    settings = tmp_path / "schemcheck.toml"
+    settings.write_text('monte_carlo_solve = "full"\nmonte_carlo_samples = 500\n',
+                        encoding="utf-8")
+    design = audit_paths([str(tmp_path)], jobs=1)["designs"][0]
+    assert design["settings"]["monte_carlo_solve"] == "full"
+    assert design["stages"][0]["monte_carlo_samples"] == 500
+    result = CliRunner().invoke(main, ["audit", str(tmp_path), "--no-cache", "--mc-solve",
+                                       "update"])
+    assert json.loads(result.stdout)["designs"][0]["settings"]["monte_carlo_solve"] == "update"
+    result = CliRunner().invoke(main, ["audit", str(tmp_path), "--no-cache", "--mc-solve",
+                                       "exact"])
+    assert result.exit_code == 2 and "'exact' is not one of 'update', 'full'" in result.output
+    settings.write_text('monte_carlo_solve = "exact"\n', encoding="utf-8")
+    error = audit_paths([str(tmp_path)], jobs=1)["designs"][0]["errors"][0]
+    assert error == (f"{settings}: key 'monte_carlo_solve': expected \"update\" or \"full\", "
+                     "found 'exact'")
