@@ -11,7 +11,7 @@ import os
 import sys
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import replace
-from typing import Any, Callable
+from typing import Any, Callable, Iterator
 
 from schemcheck import __version__
 from schemcheck.audit import CAUTION
@@ -92,8 +92,26 @@ def audit_one(root: str, settings: Settings) -> dict[str, Any]:
         return _unreadable(root, f"{root}: could not read ({error.strerror or error})", settings)
 
 
-def _audit_task(args: tuple[str, Settings]) -> dict[str, Any]:
-    return audit_one(*args)
+def _audit_chunk(tasks: list[tuple[str, Settings]]) -> list[dict[str, Any]]:
+    return [audit_one(*task) for task in tasks]
+
+
+def _in_workers(pool: ProcessPoolExecutor, workers: int,
+                tasks: list[tuple[str, Settings]]) -> Iterator[dict[str, Any]]:
+    """Results of ``tasks`` in order, audited by the pool in shrinking chunks (guided
+    scheduling): one design a message kept each worker waiting on the parent, a third
+    process on busy cores, for its next design; fixed large chunks left one worker with
+    the last chunk while the other idled. Chunks of a share of what is left make few
+    messages and end with single designs."""
+    chunks = []
+    start = 0
+    while start < len(tasks):
+        size = max(1, (len(tasks) - start) // (2 * workers))
+        chunks.append(tasks[start:start + size])
+        start += size
+    futures = [pool.submit(_audit_chunk, chunk) for chunk in chunks]
+    for future in futures:
+        yield from future.result()
 
 
 def _prepare_workers() -> None:
@@ -141,10 +159,7 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
     else:
         _prepare_workers()
         pool = ProcessPoolExecutor(max_workers=workers)
-        # a few tasks a message: one result at a time kept each worker waiting on the parent
-        # (a third process on busy cores) to hand it the next design
-        chunk = max(1, min(8, len(todo) // (4 * workers)))
-        outputs = pool.map(_audit_task, [(d.root, s) for _, d, s, _ in todo], chunksize=chunk)
+        outputs = _in_workers(pool, workers, [(d.root, s) for _, d, s, _ in todo])
     try:
         for (index, design, _, key), result in zip(todo, outputs):
             results[index] = result
