@@ -57,7 +57,7 @@ from schemcheck.engine.params import AtTemperature, OpampParams, at_temperature
 MC_PERCENTILE = 99.7
 SOLVES = ("update", "full")
 TRUNCATE_SIGMA = 3.0  # the maximum is 3 sigma; the distribution is cut there
-CHUNK_VALUES = 1 << 20  # numbers per array of one chunk (4 MB of float32)
+CHUNK_VALUES = 1 << 19  # numbers of one chunk (arrays of a few hundred kB: measured fastest)
 WORK_LIMIT = 4.0e10  # work units (see _cost; a few seconds) of one design's Monte Carlo
 MIN_SAMPLES = 1000  # fewer would leave the 99.7 % bound to a handful of samples
 MAX_ITERATIONS = 40  # update series terms before a sample is solved in full
