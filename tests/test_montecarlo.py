@@ -217,6 +217,7 @@ def test_too_large_network_is_not_analysed_and_says_so():
     stage = result.stages[0]
     assert stage["status"] == "too-large"
     assert stage["monte_carlo_v"] is None and stage["worst_case_total_v"] is None
+    assert stage["monte_carlo_samples"] is None
     assert ("problem: the DC network of U1/1 has 2118 unknowns, more than the 2000 the "
             "solver takes: not analysed") in result.assumptions
 

@@ -73,7 +73,8 @@ _SEGMENT_VALUES = 1 << 23  # numbers of the per-network tables held at once
 
 @dataclass(slots=True)
 class MonteCarloRun:
-    """Bounds in volts per op-amp output (None: not computed), samples used, notes."""
+    """Bounds in volts per op-amp output (None: not computed), the samples behind each
+    bound, notes."""
 
     bounds: dict[int, float | None] = field(default_factory=dict)
     samples: dict[int, int] = field(default_factory=dict)
@@ -253,7 +254,6 @@ def _record(solution: Solution, params: list[OpampParams], net: _Network, bounds
     output or on an op-amp without parameters, or a sample had no solution (nan)."""
     incomplete = {j for j in net.system.component.opamps if not params[j].complete}
     for column, k in enumerate(net.outputs):
-        run.samples[k] = samples
         if (solution.status[k] != "ok" or solution.tainted[k]
                 or any(j in incomplete for j in reaching(solution, k))):
             run.bounds[k] = None
@@ -264,6 +264,7 @@ def _record(solution: Solution, params: list[OpampParams], net: _Network, bounds
                              "no Monte Carlo bound")
         else:
             run.bounds[k] = float(bounds[column])
+            run.samples[k] = samples
 
 
 def prepare() -> None:
