@@ -229,6 +229,9 @@ class StageSchema(Schema):
         "description": "Present when charts were asked for"})
     histogram = fields.Nested(HistogramSchema, allow_none=True, metadata={
         "description": "Present when charts were asked for and the Monte Carlo ran"})
+    monte_carlo_samples = fields.Integer(allow_none=True, metadata={
+        "description": "Monte Carlo samples behind monte_carlo_v (fewer than asked where "
+                       "the design was too large for them; the assumptions say so)"})
 
 
 class NotAnalysedSchema(Schema):

@@ -15,7 +15,7 @@ import numpy as np
 
 from schemcheck import checks
 from schemcheck.assumptions import design_assumptions
-from schemcheck.engine.budget import monte_carlo, stage_budget
+from schemcheck.engine.budget import monte_carlo_histograms, stage_budget
 from schemcheck.checks.bias_resistor import compensation_resistor
 from schemcheck.checks.context import StageContext
 from schemcheck.checks.parameters import missing_by_part
@@ -33,6 +33,7 @@ from schemcheck.circuit.values import ValueRules
 from schemcheck.engine.budget import StageBudget
 from schemcheck.engine.coverage import Omission, excluded_sources, omissions
 from schemcheck.engine.dcerror import Solution
+from schemcheck.engine.montecarlo import monte_carlo_run
 from schemcheck.engine.network import Network, build_network
 from schemcheck.engine.travel import Setting, Travel, travels
 from schemcheck.engine.params import OpampParams, ParameterError, resolve
@@ -117,17 +118,17 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     with np.errstate(all="ignore"):
         if any(p.aol for p in params):
             solution = solve(network)  # the finite gains change the figures
+        problems.extend(solution.notes)
         budgets = [stage_budget(solution, k, params, settings.temp_range)
                    for k in range(len(network.opamps))]
-        histograms: dict[int, Binned] | None = {} if settings.charts else None
-        try:
-            mc = monte_carlo(network, solution, params, settings.temp_range,
-                             settings.mc_samples, settings.seed,
-                             histograms=histograms) if settings.mc_samples > 0 else {}
-        except np.linalg.LinAlgError as error:  # a sampled network had no solution
-            mc = {}
-            problems.append(f"Monte Carlo not run: a sampled network could not be solved "
-                            f"({error}); monte_carlo_v is null")
+        mc_run = monte_carlo_run(network, solution, params, settings.temp_range,
+                                 settings.mc_samples, settings.seed, settings.mc_solve)
+        mc = dict(mc_run.bounds)
+        histograms: dict[int, Binned] | None = None  # None: no charts asked for
+        if settings.charts:
+            histograms = (monte_carlo_histograms(network, solution, params, settings.temp_range,
+                                                 settings.mc_samples, settings.seed)
+                          if settings.mc_samples > 0 else {})
         ranges = travels(network, solution)
         budget_at: dict[int, str] = {}
         for k, travel in ranges.items():
@@ -136,12 +137,9 @@ def audit_netlist(netlist: Netlist, settings: Settings,
                 budgets[k], setting = worse
                 budget_at[k] = setting.describe()
                 if settings.mc_samples > 0 and k in mc:
-                    try:
-                        mc[k] = monte_carlo(setting.network, setting.solution, params,
+                    mc[k] = monte_carlo_run(setting.network, setting.solution, params,
                                             settings.temp_range, settings.mc_samples,
-                                            settings.seed).get(k)
-                    except np.linalg.LinAlgError:
-                        mc[k] = None
+                                            settings.seed, settings.mc_solve).bounds.get(k)
     # a figure that overflowed is no figure: the checks and the report see None
     for budget in budgets:
         for name in ("worst_case_own_v", "worst_case_total_v", "rss_own_v", "rss_v",
@@ -182,6 +180,7 @@ def audit_netlist(netlist: Netlist, settings: Settings,
         stage.noise_gain_range = [span.noise_gain_low, span.noise_gain_high] if span else None
         stage.budget_at = budget_at.get(k)
         stage.excludes = excludes[k]
+        stage.monte_carlo_samples = mc_run.samples.get(k)
     _chain_and_charts(ctx, mc, histograms, result.stages)
     for stage in result.stages:
         dropped: list[str] = []
@@ -193,6 +192,7 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     result.assumptions = design_assumptions(network, netlist.parts, params,
                                             {s.part.ref for s in skipped}, problems)
     result.assumptions += _stage_notes(network, solution, ranges, budget_at, excludes, omitted)
+    result.assumptions += mc_run.notes
     if library.sources:
         result.assumptions.append(sources_line(library.sources))
     result.missing_parameters = [

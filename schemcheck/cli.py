@@ -20,6 +20,13 @@ EXIT_FINDINGS = 1
 EXIT_BAD_INPUT = 2
 MAX_SEED = 2**63 - 1  # as in a settings file (TOML's largest whole number)
 
+# One BLAS thread per process (before numpy is first imported): an audit's linear algebra
+# is many small products, which extra threads only slow down (each hand-off stalls while
+# the other cores are busy), and a batch runs one worker process per core. A value the
+# user set is kept.
+for _variable in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_variable, "1")
+
 
 def _format_option(choices: tuple[str, ...], default: str) -> Callable[[Any], Any]:
     return click.option("--format", "fmt", type=click.Choice(choices), default=default,
@@ -148,6 +155,10 @@ def _fail_on_option(command: Callable[..., Any]) -> Callable[..., Any]:
               help="Monte Carlo samples per network (default 10000; 0 turns it off).")
 @click.option("--seed", "seed", type=click.IntRange(0, MAX_SEED), default=None,
               help="Monte Carlo seed, a whole number from 0 (default 1).")
+@click.option("--mc-solve", "mc_solve", type=click.Choice(("update", "full")), default=None,
+              help="How each Monte Carlo sample is solved: 'update' (default; the nominal "
+                   "solution with low-rank resistor updates) or 'full' (a full solve per "
+                   "sample; slower, the reference).")
 @click.option("--settings", "settings_path", type=click.Path(dir_okay=False, path_type=str),
               default=None, help="Settings file to use instead of schemcheck.toml beside "
                                  "each design.")
@@ -175,7 +186,7 @@ def _fail_on_option(command: Callable[..., Any]) -> Callable[..., Any]:
 @_reports_errors
 def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None,
           parts: str | None, budget: str | None, samples: int | None, seed: int | None,
-          settings_path: str | None, jobs: int | None, fail_on: str, no_cache: bool,
+          mc_solve: str | None, settings_path: str | None, jobs: int | None, fail_on: str, no_cache: bool,
           cache_file: str | None, changed_since: str | None, staged: bool,
           shard: Shard | None, estimate_missing: bool, charts: bool) -> None:
     """Audit the DC output error of every op-amp stage of one or many designs.
@@ -224,7 +235,8 @@ def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None
             except SchemcheckError as problem:
                 raise _OptionError(option, problem) from None
     overrides = options_to_overrides(temp=temp, parts=parts, budget=budget, samples=samples,
-                                     seed=seed, estimate_missing=estimate_missing)
+                                     seed=seed, estimate_missing=estimate_missing,
+                                     mc_solve=mc_solve)
     if charts or fmt == "html":
         overrides["charts"] = True
     designs, missing = find_designs(list(paths))

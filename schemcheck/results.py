@@ -31,8 +31,8 @@ MODEL_ASSUMPTIONS = (
     "10 °C and bipolar ones are flat; hot values apply at the part's T_hot or else at the "
     "top of the range",
     "Monte Carlo: resistors uniform within tolerance; Vos, Ib, Ios Gaussian with the "
-    "maximum as 3 sigma and random sign; 99.7 % bound at the worse end of the temperature "
-    "range",
+    "maximum as 3 sigma, truncated at the maximum, and random sign; 99.7 % bound at the "
+    "worse end of the temperature range",
     "error split: the own Vos, Ib and Ios terms at 25 °C, each upstream stage's worst-case "
     "share (carried with the gain from its output) and the drift to the worse end of the "
     "range add up to the worst case over temperature",
@@ -307,6 +307,9 @@ class StageResult:
     #: kept when charts are asked for (``--format html``, ``--charts``)
     over_temperature: TemperatureCurve | None = field(default=None, metadata=OMIT_WHEN_NONE)
     histogram: Histogram | None = field(default=None, metadata=OMIT_WHEN_NONE)
+    #: Monte Carlo samples behind monte_carlo_v (fewer than asked where the design was too
+    #: large for them; the assumptions say so)
+    monte_carlo_samples: int | None = None
 
 
 @dataclass(slots=True)

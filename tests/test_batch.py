@@ -117,8 +117,10 @@ def test_cache_returns_identical_results_and_reaudits_changes(library, tmp_path)
 
 def test_killed_run_leaves_a_readable_database(library, tmp_path):
     cache_path = tmp_path / "killed.sqlite3"
+    # the full per-sample solve keeps each design busy long enough to be killed mid-run
     command = [sys.executable, "-m", "schemcheck", "audit", str(library), "--jobs", "1",
-               "--cache-file", str(cache_path), "--samples", "20000", "--format", "json"]
+               "--cache-file", str(cache_path), "--samples", "50000", "--mc-solve", "full",
+               "--format", "json"]
     proc = subprocess.Popen(command, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     deadline = time.time() + 60
     rows = 0
@@ -373,7 +375,7 @@ def test_worker_process_lost_is_that_designs_error(library):
     # only (the pool's error is turned into the design's error).
     from concurrent.futures.process import BrokenProcessPool
 
-    from schemcheck.run.batch import _outcome
+    from schemcheck.run.batch import _chunk_outcome
     from schemcheck.settings import Settings
 
     class Lost:
@@ -381,7 +383,7 @@ def test_worker_process_lost_is_that_designs_error(library):
             raise BrokenProcessPool("a child process terminated abruptly")
 
     root = str(library / "project01" / "board01.kicad_sch")
-    result = _outcome(Lost(), root, Settings())
+    (result,) = _chunk_outcome(Lost(), [(root, Settings())])
     assert result["findings"][0]["rule"] == "audit-failed" and result["errors"]
     assert result["errors"][0].startswith(root)
 

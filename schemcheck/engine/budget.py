@@ -8,9 +8,10 @@ For the output of stage k and each op-amp j whose sources reach it:
 * RSS: the root of the sum of the squares of the same terms;
 * over temperature: the worst case at each end of the operating range (parameters by
   :func:`schemcheck.params.at_temperature`), the larger one;
-* Monte Carlo (seeded, vectorised): resistors uniform within their tolerance; every
-  Vos, Ib and Ios Gaussian with the datasheet maximum as 3 sigma and a random sign;
-  the 99.7th percentile of the output error's magnitude, at the worse end of the range.
+* Monte Carlo (seeded, vectorised; :mod:`schemcheck.engine.montecarlo`): resistors
+  uniform within their tolerance; every Vos, Ib and Ios Gaussian with the datasheet
+  maximum as 3 sigma, truncated at that maximum, and a random sign; the 99.7th
+  percentile of the output error's magnitude, at the worse end of the range.
 """
 
 from __future__ import annotations
@@ -24,9 +25,6 @@ from schemcheck.engine.dcerror import Solution
 from schemcheck.engine.histogram import Binned, histogram
 from schemcheck.engine.network import Network
 from schemcheck.engine.params import AtTemperature, OpampParams, at_temperature
-
-MC_PERCENTILE = 99.7
-
 
 @dataclass(slots=True)
 class StageBudget:
@@ -100,40 +98,50 @@ def total_at(solution: Solution, k: int, params: list[OpampParams], temp: float,
 
 def monte_carlo(network: Network, solution: Solution, params: list[OpampParams],
                 temp_range: tuple[float, float], samples: int, seed: int,
-                chunk_values: int = 4_000_000,
-                histograms: dict[int, Binned] | None = None) -> dict[int, float | None]:
-    """99.7th-percentile output error of every solved op-amp (and, into ``histograms``
-    where given, its sampled output errors binned).
+                solve: str = "update") -> dict[int, float | None]:
+    """99.7th-percentile output error of every solved op-amp, volts (see
+    :mod:`schemcheck.engine.montecarlo`, whose ``monte_carlo_run`` also says how many
+    samples were used and why fewer)."""
+    from schemcheck.engine.montecarlo import monte_carlo_run
 
-    Every network piece of one matrix size is sampled and solved together in one
-    stacked ``numpy.linalg.solve`` (in chunks of about ``chunk_values`` matrix entries),
-    so a sheet of many small stages costs a few large numpy calls, not many small ones.
-    """
+    return monte_carlo_run(network, solution, params, temp_range, samples, seed, solve).bounds
+
+
+def monte_carlo_histograms(network: Network, solution: Solution, params: list[OpampParams],
+                           temp_range: tuple[float, float], samples: int, seed: int,
+                           chunk_values: int = 4_000_000) -> dict[int, Binned]:
+    """The sampled output errors of every solved op-amp, binned, for the HTML report's
+    histograms. Sampled afresh with every sample solved in full (so at most
+    :data:`HISTOGRAM_SAMPLES` samples, bounded work), the parameters drawn as for the
+    bound (Gaussian with the maximum as 3 sigma, truncated there)."""
+    samples = min(samples, HISTOGRAM_SAMPLES)
     rng = np.random.default_rng(seed)
-    low, high = temp_range
-    result: dict[int, float | None] = {}
+    out: dict[int, Binned] = {}
     groups: dict[int, list] = {}
     for system in solution.systems:
         ops = system.component.opamps
-        if any(solution.status[k] == "unsolvable" for k in ops) or not system.out_rows:
-            result.update({k: None for k in system.out_rows})
+        if (any(solution.status[k] == "unsolvable" for k in ops) or not system.out_rows
+                or system.base.shape[0] > HISTOGRAM_MAX_UNKNOWNS):
             continue
         groups.setdefault(system.base.shape[0], []).append(system)
     for size, systems in sorted(groups.items()):
-        errors = _group_errors(network, solution, params, systems, size, (low, high), samples,
-                               rng, chunk_values)
+        try:
+            errors = _group_errors(network, solution, params, systems, size, temp_range,
+                                   samples, rng, chunk_values)
+        except np.linalg.LinAlgError:
+            continue  # a sample without a solution: no histogram (the bound says why)
         for g, system in enumerate(systems):
             incomplete = {j for j in system.component.opamps if not params[j].complete}
-            bounds = np.percentile(np.abs(errors[g]), MC_PERCENTILE, axis=0)
             for column, k in enumerate(system.out_rows):
-                if (solution.status[k] != "ok" or solution.tainted[k]
+                if not (solution.status[k] != "ok" or solution.tainted[k]
                         or any(j in incomplete for j in reaching(solution, k))):
-                    result[k] = None
-                else:
-                    result[k] = float(bounds[column])
-                    if histograms is not None:
-                        histograms[k] = histogram(errors[g][:, column])
-    return result
+                    out[k] = histogram(errors[g][:, column])
+    return out
+
+
+#: The histograms' samples at most, and the largest network they are drawn for.
+HISTOGRAM_SAMPLES = 20_000
+HISTOGRAM_MAX_UNKNOWNS = 200
 
 
 def _group_errors(network: Network, solution: Solution, params: list[OpampParams], systems: list,
@@ -190,6 +198,10 @@ def _group_errors(network: Network, solution: Solution, params: list[OpampParams
         a = np.einsum("gsr,grij->gsij", g_values, stamps)
         a += base[:, None]
         unit = rng.normal(size=(3, n, len(opamp_index)))  # vos, ib, ios per op-amp
+        outside = np.abs(unit) > 3.0  # truncated at the maximum (3 sigma), as the bound's
+        while outside.any():
+            unit[outside] = rng.normal(size=int(outside.sum()))
+            outside = np.abs(unit) > 3.0
         draws = np.empty((4, n, len(opamp_index)))
         draws[0] = unit[0]
         ios = unit[2] * (ios_sigma / 3.0)

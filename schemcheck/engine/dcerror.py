@@ -31,6 +31,10 @@ SOURCES = ("vos", "ib_plus", "ib_minus")
 #: largest resistance of the network for the V/A ones) is rounding noise of the solve
 #: (like 6e-20 V/A where an ideal output absorbs a current) and is taken as 0.
 NOISE = 1e-10
+#: largest network solved (dense: 2000 unknowns is 32 MB a matrix and about a second)
+MAX_UNKNOWNS = 2000
+#: above this condition number (1-norm) a network's solution is not trusted
+MAX_CONDITION = 1e13
 
 
 @dataclass(slots=True)
@@ -55,6 +59,8 @@ class System:
     columns: list[tuple[int, str]]  # per rhs column: (op-amp index, source or "unknown")
     out_rows: dict[int, int]  # op-amp index -> row of its output net
     net_rows: dict[str, int]
+    #: the inverse of the nominal matrix (None until solved, or where it cannot be)
+    inverse: np.ndarray | None = None
 
     def matrix(self, conductance: np.ndarray | None = None) -> np.ndarray:
         g = self.conductance if conductance is None else conductance
@@ -78,7 +84,8 @@ def _stamp(a: np.ndarray, i: int, j: int, g: float) -> None:
 class Solution:
     """Sensitivities and status of every op-amp of the network."""
 
-    #: per op-amp index: "ok", "no-bias-path", "no-dc-feedback", "unsolvable", "output-fixed"
+    #: per op-amp index: "ok", "no-bias-path", "no-dc-feedback", "unsolvable", "output-fixed",
+    #: "too-large" (its network has more than MAX_UNKNOWNS unknowns)
     status: list[str]
     #: op-amp k -> {(op-amp j, source): dVout_k / dsource}
     sensitivity: list[dict[tuple[int, str], float]]
@@ -87,6 +94,8 @@ class Solution:
     #: op-amp k -> inputs with no DC path: [("+", net), ...]
     floating_inputs: list[list[tuple[str, str]]]
     systems: list[System] = field(default_factory=list)
+    #: what was not analysed and why, for the report
+    notes: list[str] = field(default_factory=list)
 
     def own(self, k: int) -> dict[str, float] | None:
         """Sensitivities of op-amp k's output to its own sources (V/V, V/A)."""
@@ -255,30 +264,80 @@ def solve(network: Network) -> Solution:
         all_nets.update((op.plus, op.minus, op.out))
     active = {n for n in all_nets if n in grounded and n not in network.fixed}
     solution = Solution(status, [dict() for _ in range(m)], [False] * m, floating)
+    by_size: dict[int, list[System]] = {}
     for component in _components(network, active):
+        nets = set(component.nets)
+        unknowns = len(nets) + sum(network.opamps[k].out in nets for k in component.opamps)
+        if unknowns > MAX_UNKNOWNS:
+            _too_large(network, component, unknowns, solution)
+            continue
         system = build_system(network, component, status)
         solution.systems.append(system)
-        try:
-            a = system.matrix()
-            if np.linalg.cond(a) > 1e13:
-                raise np.linalg.LinAlgError("ill-conditioned")
-            x = np.linalg.solve(a, system.rhs)
-        except np.linalg.LinAlgError:
-            for k in component.opamps:
-                if status[k] == "ok":
-                    status[k] = "unsolvable"
-            continue
-        ohms = max((network.resistors[i].ohms for i in component.resistors), default=1.0)
-        for k, row in system.out_rows.items():
-            values = x[row]
-            gain = max([1.0] + [abs(v) for (_, source), v in zip(system.columns, values)
-                                if source == "vos"])
-            for (j, source), value in zip(system.columns, values):
-                if source == "unknown":
-                    if abs(value) > 1e-12:
-                        solution.tainted[k] = True
-                    continue
-                scale = gain if source == "vos" else gain * max(ohms, 1.0)
-                if abs(value) > NOISE * scale:
-                    solution.sensitivity[k][(j, source)] = float(value)
+        by_size.setdefault(unknowns, []).append(system)
+    for systems in by_size.values():
+        for system, inverse in zip(systems, _inverses([s.matrix() for s in systems])):
+            _read(system, inverse, solution)
     return solution
+
+
+def _inverses(matrices: list[np.ndarray]) -> list[np.ndarray | None]:
+    """The inverse of each same-size matrix (one stacked LAPACK call); None where it is
+    singular or its condition number (1-norm) exceeds MAX_CONDITION."""
+    stack = np.stack(matrices)
+    try:
+        inverses = list(np.linalg.inv(stack))
+    except np.linalg.LinAlgError:  # one is singular: find which, one by one
+        inverses = []
+        for a in matrices:
+            try:
+                inverses.append(np.linalg.inv(a))
+            except np.linalg.LinAlgError:
+                inverses.append(None)
+    out: list[np.ndarray | None] = []
+    for a, inverse in zip(matrices, inverses):
+        if inverse is not None:
+            with np.errstate(over="ignore"):  # an infinite condition number is refused below
+                condition = np.abs(a).sum(axis=0).max() * np.abs(inverse).sum(axis=0).max()
+            if not np.isfinite(condition) or condition > MAX_CONDITION:
+                inverse = None
+        out.append(inverse)
+    return out
+
+
+def _read(system: System, inverse: np.ndarray | None, solution: Solution) -> None:
+    """The sensitivities of ``system``'s outputs from its nominal inverse."""
+    status = solution.status
+    if inverse is None:
+        for k in system.component.opamps:
+            if status[k] == "ok":
+                status[k] = "unsolvable"
+        return
+    system.inverse = inverse
+    rows = list(system.out_rows.values())
+    x = inverse[rows] @ system.rhs
+    conductances = [g for g in system.conductance if g > 0]
+    ohms = max(1.0, 1.0 / min(conductances)) if conductances else 1.0
+    for k, values in zip(system.out_rows, x):
+        gain = max([1.0] + [abs(v) for (_, source), v in zip(system.columns, values)
+                            if source == "vos"])
+        for (j, source), value in zip(system.columns, values):
+            if source == "unknown":
+                if abs(value) > 1e-12:
+                    solution.tainted[k] = True
+                continue
+            scale = gain if source == "vos" else gain * ohms
+            if abs(value) > NOISE * scale:
+                solution.sensitivity[k][(j, source)] = float(value)
+
+
+def _too_large(network: Network, component: Component, unknowns: int,
+               solution: Solution) -> None:
+    refs = []
+    for k in component.opamps:
+        if solution.status[k] == "ok":
+            solution.status[k] = "too-large"
+        part = network.opamps[k].unit.part
+        refs.append(part.ref if part.unit_count == 1 else f"{part.ref}/{part.unit}")
+    shown = ", ".join(refs[:8]) + (f" and {len(refs) - 8} more" if len(refs) > 8 else "")
+    solution.notes.append(f"the DC network of {shown} has {unknowns} unknowns, more than the "
+                          f"{MAX_UNKNOWNS} the solver takes: not analysed")

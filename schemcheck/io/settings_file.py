@@ -7,6 +7,7 @@
     rules_off = ["missing-parameters"]
     estimate_missing = false          # true: class estimates for missing op-amp figures
     monte_carlo_samples = 10000
+    monte_carlo_solve = "update"      # or "full": a full solve per sample (slower)
     seed = 1
     [source_resistance]               # nets driven from outside the design
     BRIDGE = "350"
@@ -29,7 +30,7 @@ from typing import Any
 
 from schemcheck.rules import RULES
 from schemcheck.errors import ParseError
-from schemcheck.settings import Settings
+from schemcheck.settings import MC_SOLVES, Settings
 from schemcheck.units import (ValueFormatError, check_temperature_range, parse_quantity,
                               parse_resistance, parse_tolerance, read_resistance)
 from schemcheck.io.files import (check_allowed, read_text, toml_document, toml_error,
@@ -40,8 +41,8 @@ from schemcheck.io.resolve import SETTINGS_NAME, library_path
 #: is what TOML can write).
 MAX_SEED = 2**63 - 1
 _KEYS = ("temperature_range", "default_budget", "default_tolerance", "parts_library",
-         "rules_off", "monte_carlo_samples", "seed", "source_resistance", "estimate_missing",
-         "values", "value_notation")
+         "rules_off", "monte_carlo_samples", "monte_carlo_solve", "seed", "source_resistance",
+         "estimate_missing", "values", "value_notation")
 
 
 def _finite_number(value: Any) -> bool:
@@ -152,6 +153,10 @@ def apply_settings(data: dict[str, Any], path: str, base: Settings,
         if not isinstance(data["estimate_missing"], bool):
             raise bad("estimate_missing", "true or false")
         changes["estimate_missing"] = data["estimate_missing"]
+    if "monte_carlo_solve" in data:
+        if data["monte_carlo_solve"] not in MC_SOLVES:
+            raise bad("monte_carlo_solve", " or ".join(f'"{m}"' for m in MC_SOLVES))
+        changes["mc_solve"] = data["monte_carlo_solve"]
     if "seed" in data:
         seed = data["seed"]
         if isinstance(seed, bool) or not isinstance(seed, int) or not 0 <= seed <= MAX_SEED:

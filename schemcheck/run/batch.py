@@ -13,7 +13,7 @@ import sys
 import traceback
 from concurrent.futures import Future, ProcessPoolExecutor
 from dataclasses import replace
-from typing import TYPE_CHECKING, Any, Callable
+from typing import TYPE_CHECKING, Any, Callable, Iterator
 
 from schemcheck import __version__
 from schemcheck.errors import ParseError, PathNotAllowedError, SchemcheckError
@@ -169,8 +169,45 @@ def audit_one(root: str, settings: Settings) -> dict[str, Any]:
         return _failed(root, error, settings)
 
 
-def _audit_task(args: tuple[str, Settings]) -> dict[str, Any]:
-    return audit_one(*args)
+def _audit_chunk(tasks: list[tuple[str, Settings]]) -> list[dict[str, Any]]:
+    return [audit_one(*task) for task in tasks]
+
+
+def _in_workers(pool: ProcessPoolExecutor, workers: int,
+                tasks: list[tuple[str, Settings]]) -> Iterator[dict[str, Any]]:
+    """Results of ``tasks`` in order, audited by the pool in shrinking chunks (guided
+    scheduling): one design a message kept each worker waiting on the parent, a third
+    process on busy cores, for its next design; fixed large chunks left one worker with
+    the last chunk while the other idled. Chunks of a share of what is left make few
+    messages and end with single designs."""
+    chunks = []
+    start = 0
+    while start < len(tasks):
+        size = max(1, (len(tasks) - start) // (2 * workers))
+        chunks.append(tasks[start:start + size])
+        start += size
+    futures = [pool.submit(_audit_chunk, chunk) for chunk in chunks]
+    for future, chunk in zip(futures, chunks):
+        yield from _chunk_outcome(future, chunk)
+
+
+def _chunk_outcome(future: Future, chunk: list[tuple[str, Settings]]) -> list[dict[str, Any]]:
+    """The results of one chunk of designs audited by a worker process. A worker that
+    died, or any error on the way back, is those designs' error alone."""
+    try:
+        return future.result()
+    except Exception as error:  # noqa: BLE001 - a lost worker must not lose the batch
+        return [_failed(root, error, settings) for root, settings in chunk]
+
+
+def _prepare_workers() -> None:
+    """Import and set up here what every audit needs, once, so that forked workers start
+    with it instead of each paying for it on its first design."""
+    import schemcheck.circuit.load  # noqa: F401
+    import schemcheck.io.partslib  # noqa: F401
+    from schemcheck.engine.montecarlo import prepare
+
+    prepare()
 
 
 def audit_paths(paths: list[str], *, base: Settings | None = None,
@@ -208,14 +245,18 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
     if progress:
         progress(done, len(designs))
     workers = max(1, min(jobs or os.cpu_count() or 1, len(todo)))
-    # each worker ends itself when this process dies, even by SIGKILL
-    pool = (ProcessPoolExecutor(max_workers=workers, initializer=watch_parent,
-                                initargs=(os.getpid(),)) if workers > 1 else None)
+    tasks = [(d.root, s) for _, d, s, _ in todo]
+    pool = None
+    if workers == 1:
+        outputs: Iterator[dict[str, Any]] = (audit_one(*task) for task in tasks)
+    else:
+        _prepare_workers()
+        # each worker ends itself when this process dies, even by SIGKILL
+        pool = ProcessPoolExecutor(max_workers=workers, initializer=watch_parent,
+                                   initargs=(os.getpid(),))
+        outputs = _in_workers(pool, workers, tasks)
     try:
-        futures = ([pool.submit(_audit_task, (d.root, s)) for _, d, s, _ in todo]
-                   if pool is not None else [None] * len(todo))
-        for (index, design, settings, key), future in zip(todo, futures):
-            result = _outcome(future, design.root, settings)
+        for (index, design, settings, key), result in zip(todo, outputs):
             results[index] = result
             if cache is not None and key and not result["errors"]:
                 stored = portable(result, design.root)
@@ -244,17 +285,6 @@ def public(report: dict[str, Any]) -> dict[str, Any]:
     """``report`` as it is written and served: without how this run got there (how many
     designs came from the cache), so a warm run's report is the cold run's byte for byte."""
     return {key: value for key, value in report.items() if key != "run"}
-
-
-def _outcome(future: Future | None, root: str, settings: Settings) -> dict[str, Any]:
-    """One design's result: audited here (``future`` None) or by a worker process. A
-    worker that died, or any error on the way back, is that design's error alone."""
-    if future is None:
-        return audit_one(root, settings)
-    try:
-        return future.result()
-    except Exception as error:  # noqa: BLE001 - a lost worker must not lose the batch
-        return _failed(root, error, settings)
 
 
 def portable(result: dict[str, Any], root: str) -> dict[str, Any] | None:

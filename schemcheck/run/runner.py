@@ -11,7 +11,8 @@ from schemcheck.units import ValueFormatError, parse_quantity, parse_temperature
 def options_to_overrides(*, temp: str | None = None, parts: str | None = None,
                          budget: str | None = None, samples: int | None = None,
                          seed: int | None = None,
-                         estimate_missing: bool | None = None) -> dict[str, Any]:
+                         estimate_missing: bool | None = None,
+                         mc_solve: str | None = None) -> dict[str, Any]:
     """Settings values given on the command line (they override the settings file)."""
     changes: dict[str, Any] = {}
     given: list[str] = []
@@ -32,6 +33,8 @@ def options_to_overrides(*, temp: str | None = None, parts: str | None = None,
         changes["seed"] = seed
     if estimate_missing:
         changes["estimate_missing"] = True
+    if mc_solve is not None:
+        changes["mc_solve"] = mc_solve
     if given:
         changes["given"] = tuple(given)
     return changes
