@@ -207,6 +207,9 @@ class NotAnalysedSchema(Schema):
     reason = fields.String()
     id = fields.String()
     channel = fields.Integer(allow_none=True)
+    topology = fields.String(metadata={
+        "description": "what the unit is wired as, where known: comparator (open loop), "
+                       "spare, ..."})
 
 
 class DesignSchema(Schema):

@@ -281,6 +281,8 @@ class NotAnalysed:
     reason: str
     id: str = ""
     channel: int | None = None
+    #: what the unit is wired as where that is known ("comparator (open loop)", "spare")
+    topology: str = ""
 
 
 @dataclass(slots=True)

@@ -10,6 +10,7 @@ DEFAULT_TEMP_RANGE = (0.0, 70.0)
 DEFAULT_TOLERANCE = 0.01  # 1 % resistors where no Tolerance field is given
 DEFAULT_MC_SAMPLES = 10_000
 DEFAULT_SEED = 1
+DEFAULT_HOLD_TIME = 1e-3  # s: the hold time sample-and-hold droop is stated over
 
 
 @dataclass(frozen=True, slots=True)
@@ -34,6 +35,8 @@ class Settings:
     value_notations: tuple[tuple[str, str], ...] = ()
     #: which of the values above were set by the user (the rest are defaults)
     given: tuple[str, ...] = ()
+    #: seconds: the hold time a sample-and-hold input's droop is stated over
+    hold_time: float = DEFAULT_HOLD_TIME
 
     def parts_libraries(self) -> list[tuple[str, str]]:
         """(origin, path) of every parts library to read, the lowest precedence first:
@@ -63,6 +66,7 @@ class Settings:
             "estimate_missing": self.estimate_missing,
             "values": dict(self.values),
             "value_notations": [list(pair) for pair in self.value_notations],
+            "hold_time_s": self.hold_time,
             "defaults_used": [name for name in ("temp_range", "default_tolerance",
                                                 "default_budget") if name not in self.given],
         }

@@ -12,6 +12,7 @@
     BRIDGE = "350"
     [values]                          # values the drawing gives in a form not read
     R13 = "1M"
+    hold_time = "1ms"                 # sample-and-hold droop is stated over this time
     [[value_notation]]                # house notations, tried where a Value is not read
     match = '^t(.+)$'                 # a regular expression over the whole Value
     value = '\1'                      # what it means ('t2k' is a 2 kΩ trimmer)
@@ -31,13 +32,13 @@ from schemcheck.rules import RULES
 from schemcheck.errors import ParseError
 from schemcheck.settings import Settings
 from schemcheck.units import (ValueFormatError, parse_quantity, parse_resistance,
-                              parse_tolerance, read_resistance)
+                              parse_time, parse_tolerance, read_resistance)
 from schemcheck.io.files import read_text
 
 SETTINGS_NAME = "schemcheck.toml"
 _KEYS = ("temperature_range", "default_budget", "default_tolerance", "parts_library",
          "rules_off", "monte_carlo_samples", "seed", "source_resistance", "estimate_missing",
-         "values", "value_notation")
+         "values", "value_notation", "hold_time")
 
 
 def find_settings(design_root: str) -> str | None:
@@ -97,6 +98,8 @@ def apply_settings(data: dict[str, Any], path: str, base: Settings) -> Settings:
             changes["values"] = _values(data["values"], bad)
         if "value_notation" in data:
             changes["value_notations"] = _notations(data["value_notation"], bad)
+        if "hold_time" in data:
+            changes["hold_time"] = parse_time(str(data["hold_time"]), "hold_time")
     except ValueFormatError as error:
         raise ParseError(str(error), file=path) from None
     if "parts_library" in data:
