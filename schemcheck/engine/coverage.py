@@ -200,17 +200,17 @@ def _feedback_through_unmodelled(network: Network, solution: Solution, k: int
             return [Omission(k, "dc-path-unknown", f"DC feedback can only run through {through}",
                              f"its DC feedback, if any, runs only through {through}: the tool "
                              "does not know that part's DC behaviour", tuple(path))]
-        rail = _path_through_rail(network, k)
+        rail = path_through_rail(network, k)
         if rail is not None:
             parts, net = rail
             through = ", ".join(f"{ref} ({network.kinds.get(ref, 'part')})" for ref in parts)
-            what = held or "a loop "
+            what = f"it is {held}that" if held else "its DC feedback"
             return [Omission(k, "dc-path-unknown",
                              f"DC feedback may close only through {through} and the rail {net}"
                              " (a regulator loop)",
-                             f"it is {what}that may close only through {through} and the "
-                             f"supply rail {net} (a regulator whose pass element makes that "
-                             "rail): the loop is outside the model", tuple(parts))]
+                             f"{what} may close only through {through} and the supply rail "
+                             f"{net} (a regulator whose pass element makes that rail): the "
+                             "loop is outside the model", tuple(parts))]
         if _path(network, k, unmodelled=True, capacitors=True) is not None:
             return []  # feedback through capacitors only: a real no-dc-feedback defect
     return [_open_loop_omission(network, solution, k)]
@@ -225,7 +225,7 @@ def _open_loop(network: Network, solution: Solution, k: int) -> Omission | None:
         return None
     if op.minus not in network.fixed and op.out not in network.fixed and (
             _path(network, k, unmodelled=True, capacitors=True) is not None
-            or _path_through_rail(network, k) is not None):
+            or path_through_rail(network, k) is not None):
         return None
     return _open_loop_omission(network, solution, k)
 
@@ -252,7 +252,7 @@ def _open_loop_omission(network: Network, solution: Solution, k: int) -> Omissio
                     "gain drawn as an op-amp), not an op-amp gain stage")
 
 
-def _path_through_rail(network: Network, k: int) -> tuple[list[str], str] | None:
+def path_through_rail(network: Network, k: int) -> tuple[list[str], str] | None:
     """A path from op-amp k's output to its - input that enters a supply rail (not ground)
     only from a part the tool does not model (a pass transistor making that rail) and
     leaves it through resistors: (the unmodelled parts on it, the rail), or None."""

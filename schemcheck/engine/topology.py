@@ -3,7 +3,8 @@
 Judged from the DC network (resistors, sources, other op-amps) and where the fitted
 capacitors sit, in this order:
 
-* ``comparator (open loop)``: nothing at all leads from the output back to the - input;
+* ``comparator (open loop)``: nothing at all leads from the output back to the - input
+  (not even through a part the tool does not model and a rail it may make);
 * ``integrator``: a capacitor from the output to the - input and no resistive path
   between them (a capacitor not fitted is not in the network, so it does not count);
 * ``composite loop``: the feedback to the - input runs around another op-amp too;
@@ -35,6 +36,7 @@ from __future__ import annotations
 
 from collections import deque
 
+from schemcheck.engine.coverage import path_through_rail
 from schemcheck.engine.network import Network
 
 INTEGRATOR = "integrator"
@@ -97,7 +99,8 @@ class _View:
                 unmodelled: bool, avoid: str = "") -> bool:
         """A path from ``start`` to ``goal`` through resistors (and capacitors, other
         op-amps from input to output, parts that may conduct), not through fixed nets or
-        ``avoid``."""
+        ``avoid``; without ``others``, not through another op-amp's output either (a
+        source)."""
         through: dict[str, set[str]] = {}
         if others:
             for j, o in enumerate(self.network.opamps):
@@ -122,7 +125,8 @@ class _View:
             for nxt in steps:
                 if nxt == goal:
                     return True
-                if nxt in seen or nxt in self.fixed or nxt == avoid:
+                if nxt in seen or nxt in self.fixed or nxt == avoid or (
+                        not others and self.source(nxt)):
                     continue
                 seen.add(nxt)
                 queue.append(nxt)
@@ -135,8 +139,9 @@ def label(network: Network, k: int, status: str, noise_gain: float | None = None
     op = v.op
     if op.minus == op.out:
         return _sallen_key(v) or "buffer"
-    if op.minus in v.fixed or op.out in v.fixed or not v.reaches(
-            op.out, op.minus, capacitors=True, others=True, unmodelled=True):
+    if op.minus in v.fixed or op.out in v.fixed or not (
+            v.reaches(op.out, op.minus, capacitors=True, others=True, unmodelled=True)
+            or path_through_rail(network, k) is not None):
         return OPEN_LOOP
     local = v.reaches(op.out, op.minus, capacitors=False, others=False, unmodelled=False)
     if not local and op.minus in v.caps.get(op.out, []):
@@ -155,15 +160,17 @@ def label(network: Network, k: int, status: str, noise_gain: float | None = None
     current = _current_source(v, region)
     if plus_quiet and current and not signals:
         return "transimpedance"
+    if plus_quiet and _multiple_feedback(v):
+        return "multiple-feedback filter"
     if unity:
         return _follower(v, region)
-    if _multiple_feedback(v):
-        return "multiple-feedback filter"
     if plus_quiet:
         if len(signals) >= 2:
             return "inverting summer"
         if len(signals) == 1:
             return "inverting (T-network)" if _t_network(v) else "inverting"
+        if _t_network(v):
+            return "inverting (T-network)"  # its input drawn on a rail
         return "non-inverting" if rails else "other"
     if _in_amp_pair(v, region):
         return "in-amp input pair"
@@ -176,30 +183,33 @@ def label(network: Network, k: int, status: str, noise_gain: float | None = None
 
 def _composite(v: _View) -> bool:
     """The - input is reached from the output around another op-amp (a path that does not
-    pass the - input itself before reaching it)."""
+    pass the - input itself before reaching it). Another op-amp's output is a source: a
+    path leaves it only where it came through that op-amp."""
     op = v.op
     through: dict[str, set[str]] = {}
     for j, o in enumerate(v.network.opamps):
         if j != v.k:
             for pin in (o.plus, o.minus):
                 through.setdefault(pin, set()).add(o.out)
-    # states: (net, passed another op-amp)
-    start = (op.out, False)
+    # states: (net, passed another op-amp, came through an op-amp onto its output)
+    start = (op.out, False, True)
     seen = {start}
     queue = deque([start])
     while queue:
-        net, passed = queue.popleft()
-        steps = [(n, passed) for n in v.resistors(net)]
-        steps += [(n, True) for n in through.get(net, ())]
-        for nxt, flag in steps:
+        net, passed, driven = queue.popleft()
+        if net in v.outputs and not driven:
+            continue  # reached another op-amp's output through a resistor: a source
+        steps = [(n, passed, False) for n in v.resistors(net)]
+        steps += [(n, True, True) for n in through.get(net, ())]
+        for nxt, flag, came in steps:
             if nxt == op.minus:
                 if flag:
                     return True
                 continue
-            if nxt in v.fixed or (nxt, flag) in seen or nxt == op.out:
+            if nxt in v.fixed or (nxt, flag, came) in seen or nxt == op.out:
                 continue
-            seen.add((nxt, flag))
-            queue.append((nxt, flag))
+            seen.add((nxt, flag, came))
+            queue.append((nxt, flag, came))
     return False
 
 
@@ -267,8 +277,9 @@ def _t_network(v: _View) -> bool:
 
 
 def _multiple_feedback(v: _View) -> bool:
-    """A node joined (by resistor or capacitor) to both the - input and the output, with
-    capacitors on it or across the - input and output: two of them at least."""
+    """A node joined (by resistor or capacitor) to both the - input and the output and to
+    something else (the input, a rail), with capacitors on it or across the - input and
+    output: two of them at least."""
     op = v.op
     minus_links = set(v.resistors(op.minus)) | set(v.caps.get(op.minus, []))
     direct = op.minus in v.caps.get(op.out, [])
@@ -280,7 +291,7 @@ def _multiple_feedback(v: _View) -> bool:
             continue
         caps = len(v.caps.get(node, [])) + (1 if direct else 0)
         feeds = [n for n in v.resistors(node) + v.caps.get(node, [])
-                 if n not in (op.out, op.minus) and not v.rail(n)]
+                 if n not in (op.out, op.minus)]
         if caps >= 2 and feeds:
             return True
     return False
