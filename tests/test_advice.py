@@ -142,3 +142,19 @@ def test_every_suggestion_lowers_the_worst_case_on_random_circuits(tmp_path):
             seen += 1
             assert finding.data["worst_case_after_v"] < finding.data["worst_case_v"]
     assert seen > 0
+
+
+def test_a_small_rise_elsewhere_is_stated():
+    # Two inverting stages whose summing nodes share R5 (1 MΩ, a mixing bus): a resistor at
+    # U1's + input lets its Ib+ move U1's output, which U2 sees a little of through R5. The
+    # rise (under 1 % of U2's worst case) is stated with the advice, never hidden.
+    result = run("J1 IN GND", "J2 IN2 GND", "R1 IN m1 10k", "R2 m1 o1 100k",
+                 f"U1 p=GND m=m1 out=o1 {BIG_IB}", "R3 IN2 m2 10k", "R4 m2 o2 100k",
+                 f"U2 p=GND m=m2 out=o2 {BIG_IB}", "R5 m1 m2 1M")
+    first = next(f for f in advice(result) if f.stage == "U1/1")
+    raised = first.data["others_raised_v"]
+    assert list(raised) == ["U2/1"]
+    u2 = next(s for s in result.stages if s.id == "U2/1")
+    assert 0 < raised["U2/1"] <= 0.01 * u2.worst_case_over_temp_v
+    assert "it raises U2/1's from" in first.message
+    assert first.data["worst_case_after_v"] < first.data["worst_case_v"]

@@ -26,7 +26,8 @@ Each change is solved (:mod:`schemcheck.engine.variants`); advice is given only 
 stage's worst case over temperature falls (by at least :data:`WORTHWHILE` for a value,
 :data:`WORTH_ADDING` for a part added, :data:`NOT_WORTH_A_PART` for a resistor replaced by
 a wire, which is preferred where it does as well as any value), its noise gain is
-unchanged and no other stage gets worse.
+unchanged and no other stage gets worse by more than :data:`OTHERS_RISE` of its own worst
+case (a rise is stated with the advice).
 The finding states the worst case before and after. A resistor added unbypassed costs its
 thermal noise, sqrt(4kTR) at the top of the temperature range, stated with the advice.
 """
@@ -51,6 +52,9 @@ WORTH_ADDING = 0.5
 #: Replacing a resistor by a wire is worth saying where it cuts the worst case by this share
 #: (a part that only adds error costs nothing to leave out).
 NOT_WORTH_A_PART = 0.01
+#: Another stage's worst case may rise by this share of its own at most (a stage sharing a
+#: summing bus sees a little of the changed stage's input currents); the rise is stated.
+OTHERS_RISE = 0.01
 #: Relative change of the noise gain that counts as "unchanged".
 SAME_GAIN = 1e-6
 
@@ -113,7 +117,8 @@ class _Stage:
             return None
         if abs(outcome.noise_gain - self.s_vos) > SAME_GAIN * abs(self.s_vos):
             return None  # it would change what the stage does
-        if outcome.others_rise_v > 1e-9 * max(self.before, 1e-12):
+        if any(after is None or after - before > OTHERS_RISE * before
+               for before, after in outcome.raised.values()):
             return None  # another stage gets worse
         if outcome.worst_case_v >= self.before * (1.0 - cut) or \
                 outcome.worst_case_v >= self.before * (1.0 - 1e-9):
@@ -192,6 +197,18 @@ def _advise(ctx: StageContext, st: _Stage) -> Finding | None:
     return _mismatch(ctx, st, comp, coupling, options)
 
 
+def _raised(ctx: StageContext, outcome: Outcome) -> tuple[str, dict]:
+    """The other stages the change makes (a little) worse, in words and as data."""
+    if not outcome.raised:
+        return "", {}
+    words = ", ".join(f"{ctx.name(j)}'s from {format_si(before, 'V')} to "
+                      f"{format_si(after, 'V')}" for j, (before, after) in
+                      sorted(outcome.raised.items()))
+    return (f" (it raises {words} a little: they share part of its input network)",
+            {"others_raised_v": {ctx.name(j): (after or 0.0) - before
+                                 for j, (before, after) in sorted(outcome.raised.items())}})
+
+
 def _after(candidate: _Candidate) -> float:
     return candidate.outcome.worst_case_v or 0.0
 
@@ -221,6 +238,7 @@ def _harmful(ctx: StageContext, st: _Stage, comp: Resistor, wire: _Candidate) ->
     k, params = st.k, ctx.params[st.k]
     ref, unit, sheet = ctx.who(k)
     after = wire.outcome.worst_case_v or 0.0
+    rise, rise_data = _raised(ctx, wire.outcome)
     if not params.bias_currents_matched:
         why = ("the part is " + ("FET-input" if params.is_fet else
                                  "zero-drift (chopper)" if params.input_type == "chopper" else
@@ -237,12 +255,13 @@ def _harmful(ctx: StageContext, st: _Stage, comp: Resistor, wire: _Candidate) ->
         f"{comp.ref} ({_ohms(comp.ohms)}) at the + input of {ctx.name(k)} is a bias-"
         f"compensation resistor, but {why}; solved again with {comp.ref} replaced by a wire, "
         f"the {_scope(ctx, k)} falls from {format_si(st.before, 'V')} to "
-        f"{format_si(after, 'V')}",
+        f"{format_si(after, 'V')}{rise}",
         f"replace {comp.ref} with 0 Ω (a wire); keep it only if it also protects the input, "
         "and then budget its error", sheet,
         data={"resistor": comp.ref, "resistor_ohm": comp.ohms,
               "added_error_v": st.before - after, "action": "replace-with-wire",
-              "suggested_ohm": 0.0, "worst_case_v": st.before, "worst_case_after_v": after},
+              "suggested_ohm": 0.0, "worst_case_v": st.before, "worst_case_after_v": after,
+              **rise_data},
         **ctx.ids(k))
 
 
@@ -307,15 +326,16 @@ def _mismatch(ctx: StageContext, st: _Stage, comp: Resistor | None, coupling: li
     else:
         what = f"{name}: {sides}"
         severity = "info"
+    rise, rise_data = _raised(ctx, best.outcome)
     return Finding(
         "bias-resistor-mismatch", severity, ref, unit,
         f"{what}; solved again {note}, the {_scope(ctx, k)} falls from "
-        f"{format_si(st.before, 'V')} to {format_si(best.outcome.worst_case_v, 'V')}",
+        f"{format_si(st.before, 'V')} to {format_si(best.outcome.worst_case_v, 'V')}{rise}",
         suggestion, sheet,
         data={"resistance_plus_ohm": st.r_plus, "resistance_minus_ohm": st.r_minus,
               "bias_error_v": bias_term, **data,
               "resistor": comp.ref if comp is not None and best.action in
               ("change-value", "lower") else None,
               "action": best.action, "worst_case_v": st.before,
-              "worst_case_after_v": best.outcome.worst_case_v, **alternative},
+              "worst_case_after_v": best.outcome.worst_case_v, **alternative, **rise_data},
         **ctx.ids(k))

@@ -233,6 +233,21 @@ def _open_loop(network: Network, solution: Solution, k: int) -> Omission | None:
 def _open_loop_omission(network: Network, solution: Solution, k: int) -> Omission:
     unit = network.opamps[k].unit
     floating = solution.floating_inputs[k]
+    holds = []
+    for sign, net in floating:
+        region = _region(network, net)
+        parts = sorted(ref for ref, nets in network.may_conduct.items()
+                       if nets & region and nets - region)
+        holds.append(_hold(network, sign, net, region, parts))
+    if floating and all(holds) and described_as_opamp(unit.part):
+        held = "; ".join(f"its {h.side} input (net {h.net}) is held by "
+                         f"{', '.join(h.capacitors)} through {', '.join(h.switches)}"
+                         for h in holds if h is not None)
+        return Omission(k, "open-loop", "comparator use (open loop) of a held input",
+                        "it is an op-amp used open loop as a comparator (nothing leads from "
+                        f"its output back to its - input) and {held}: a sample-and-hold; the "
+                        "held level droops by Ib/C while the switch is open",
+                        severity="info")
     if floating:
         sides = " and ".join(f"{'+' if sign == '+' else '-'} input (net {net})"
                              for sign, net in floating)

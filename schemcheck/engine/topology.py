@@ -258,9 +258,9 @@ def _follower(v: _View, region: set[str]) -> str:
 
 
 def _current_source(v: _View, region: set[str]) -> bool:
-    """A part the tool leaves open (a photodiode, a current output) on the - input's
-    network."""
-    return any(nets & region for nets in v.network.open_parts.values())
+    """A part the tool leaves open (a photodiode, a current output) on the - input."""
+    del region
+    return any(v.op.minus in nets for nets in v.network.open_parts.values())
 
 
 def _t_network(v: _View) -> bool:

@@ -111,14 +111,15 @@ def worst_case(solution: Solution, k: int, params: list[OpampParams],
 @dataclass(frozen=True, slots=True)
 class Outcome:
     """A change solved: stage k's noise gain and worst case after it (volts), and the
-    largest rise of any other stage's worst case it causes (volts, 0 where none)."""
+    other stages whose worst case it raises: index -> (before, after) in volts (after None
+    where the stage loses its defined output)."""
 
     change: Change
     network: Network
     solution: Solution
     noise_gain: float | None
     worst_case_v: float | None
-    others_rise_v: float
+    raised: dict[int, tuple[float, float | None]]
 
 
 class WhatIf:
@@ -146,7 +147,7 @@ class WhatIf:
             return None
         after = solve(changed)
         own = after.own(k)
-        rise = 0.0
+        raised: dict[int, tuple[float, float | None]] = {}
         for j in range(len(self.network.opamps)):
             if j == k or self.solution.status[j] != "ok":
                 continue
@@ -154,12 +155,10 @@ class WhatIf:
             if before_j is None:
                 continue
             after_j = worst_case(after, j, self.params, self.temp_range)
-            if after_j is None:
-                rise = math.inf
-            elif after_j > before_j:
-                rise = max(rise, after_j - before_j)
+            if after_j is None or after_j > before_j:
+                raised[j] = (before_j, after_j)
         return Outcome(change, changed, after, own["vos"] if own else None,
-                       worst_case(after, k, self.params, self.temp_range), rise)
+                       worst_case(after, k, self.params, self.temp_range), raised)
 
 
 def only_dc_path(network: Network, k: int, ref: str) -> bool:
