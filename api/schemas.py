@@ -121,6 +121,9 @@ class CompensationSchema(Schema):
     resistor_ohm = _num()
     ideal_ohm = _num()
     useful = fields.Boolean(allow_none=True)
+    minus_ohm = _num(metadata={
+        "description": "ohms to add in series with the - input (a follower: in the feedback "
+                       "path) where the + input sees more and cannot be lowered"})
 
 
 class PartRequirementsSchema(Schema):

@@ -337,13 +337,16 @@ def _compensation(ctx: StageContext, k: int, r_plus: float | None,
     p = ctx.params[k]
     useful = p.bias_currents_matched if p.complete else None
     resistor = compensation_resistor(ctx, k)
+    scale = max(r_minus, r_plus)
+    # the + input sees more and no resistor there can be lowered enough: the - side
+    minus = r_plus - r_minus if r_plus - r_minus > 1e-9 * scale else None
     if resistor is not None:
         ideal = resistor.ohms + (r_minus - r_plus)
-        return Compensation(resistor.ref, resistor.ohms, ideal if ideal > 0 else None, useful)
+        return Compensation(resistor.ref, resistor.ohms, ideal if ideal > 0 else None, useful,
+                            minus if ideal <= 0 else None)
     added = r_minus - r_plus
-    scale = max(r_minus, r_plus)
     ideal = 0.0 if abs(added) <= 1e-9 * scale else added if added > 0 else None
-    return Compensation(None, None, ideal, useful)
+    return Compensation(None, None, ideal, useful, minus if ideal is None else None)
 
 
 def _split(ctx: StageContext, k: int, upstream: list[Upstream]) -> ErrorSplit | None:

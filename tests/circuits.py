@@ -5,7 +5,8 @@ a resistor (R), capacitor (C), inductor (L), diode/other (D, Q), connector (J, o
 per pin), integrated circuit (X: ``o=NET`` an output pin, ``b=NET`` a bidirectional one,
 ``i=NET`` an input, ``p=NET`` a power output, in pin order) or op-amp (U/IC: ``p=``,
 ``m=``, ``out=`` nets, ``unit=`` (pins numbered as a quad op-amp's), ``lib=`` and ``desc=``
-(underscores for spaces) for another symbol, then symbol fields). Nets named GND, VCC, VEE are power nets.
+(underscores for spaces) for another symbol, then symbol fields). Nets named GND, VCC,
+VEE are power nets.
 """
 
 from __future__ import annotations

@@ -158,3 +158,18 @@ def test_a_small_rise_elsewhere_is_stated():
     assert 0 < raised["U2/1"] <= 0.01 * u2.worst_case_over_temp_v
     assert "it raises U2/1's from" in first.message
     assert first.data["worst_case_after_v"] < first.data["worst_case_v"]
+
+
+def test_compensation_names_the_minus_side_where_the_plus_input_sees_more():
+    # Without part data: the follower's + input sees 82 kΩ, its - input 0 Ω (the output):
+    # 82 kΩ in the feedback path balances them (E96 82.5 kΩ, IEC 60063).
+    from schemcheck.report.audit_text import stage_details
+    from schemcheck.report.json import to_data
+
+    result = run("J1 IN GND", "R1 IN p 82k", "U1 p=p m=out out=out")
+    stage = to_data(result)["stages"][0]
+    assert stage["compensation"]["minus_ohm"] == pytest.approx(82e3, rel=1e-9)
+    assert stage["compensation"]["ideal_ohm"] is None
+    assert dict(stage_details(stage, None))["compensation"] == (
+        "the + input sees more: 82 kΩ in the feedback path would balance the inputs "
+        "(E96 82.5 kΩ) for matched (bipolar) inputs")

@@ -9,9 +9,12 @@ op-amps and Ib x R through large resistances; the handbook noise gain 1 + Rf/Ri.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import pytest
 
 from schemcheck.audit import audit_netlist
+from schemcheck.model import Net, Node, Part, Pin
 from schemcheck.report.json import to_data
 from schemcheck.settings import Settings
 
@@ -211,16 +214,11 @@ def test_hold_droop_of_a_fet_input_part_grows_with_temperature():
     # A FET-input follower holding C1 (10 nF) behind an analog switch: droop Ib / C =
     # 20 pA / 10 nF = 2 mV/s at 25 °C (capacitor law); FET bias currents double every
     # 10 °C (common practice, as the budget takes them): x 2^4.5 at 70 °C = 45.3 mV/s.
-    from schemcheck.model import Part, Pin
-
     netlist = circuit("J1 SIG GND", "C1 HOLD GND 10n",
                       "U1 p=HOLD m=OUT out=OUT Vos=1mV Ib=20pA Ios=5pA Input=jfet")
     switch = Part("U2", 1, "SWX-1", "Analog_Switch:Generic_SPST", "/", {"Reference": "U2"},
                   (Pin("1", "COM", "passive", 1), Pin("2", "NO", "passive", 1),
                    Pin("3", "IN", "input", 1)), description="Analog switch")
-    from dataclasses import replace
-
-    from schemcheck.model import Net, Node
     nets = [replace(n, nodes=n.nodes + ((Node("U2", "1"),) if n.name == "HOLD" else ())
                     + ((Node("U2", "2"),) if n.name == "SIG" else ())) for n in netlist.nets]
     netlist = replace(netlist, parts=netlist.parts + (switch,),
@@ -233,3 +231,17 @@ def test_hold_droop_of_a_fet_input_part_grows_with_temperature():
                                                               rel=1e-9)
     assert "2 mV/s (2 µV over a 1 ms hold) at 25 °C, 45.3 mV/s (45.3 µV) at 70 °C" in \
         finding.message
+
+
+def test_hold_time_from_the_settings_file(tmp_path):
+    from schemcheck.errors import ParseError
+    from schemcheck.io.settings_file import load_settings
+
+    path = tmp_path / "schemcheck.toml"
+    path.write_text('hold_time = "50us"\n', encoding="utf-8")
+    settings = load_settings(str(path))
+    assert settings.hold_time == pytest.approx(50e-6, rel=1e-12)  # SI prefix micro
+    assert settings.describe()["hold_time_s"] == settings.hold_time
+    path.write_text('hold_time = "a while"\n', encoding="utf-8")
+    with pytest.raises(ParseError, match="expected hold_time as a positive time"):
+        load_settings(str(path))

@@ -65,7 +65,7 @@ def check_bias_resistance(ctx: StageContext) -> list[Finding]:
         ref, unit, sheet = ctx.who(k)
         against = (f"{bias_v / limit:.0%} of its budget {format_si(limit, 'V')}"
                    if limit is not None else
-                   f"{bias_v / worst:.0%} of its worst case {format_si(worst, 'V')}")
+                   f"{bias_v / reference:.0%} of its worst case {format_si(reference, 'V')}")
         findings.append(Finding(
             "high-bias-resistance", "warning" if limit is not None else "info", ref, unit,
             f"the {'+' if sign == '+' else '-'} input of {ctx.name(k)} takes its bias current "

@@ -24,9 +24,9 @@ def check_outputs_tied(ctx: StageContext) -> list[Finding]:
             ref, unit, sheet, ids = first.ref, first.unit, "", {"stage": first.stage}
         findings.append(Finding(
             "outputs-tied", "error", ref, unit,
-            f"{named} {'both' if len(drivers) == 2 else 'all'} drive net {net}: two outputs on one net fight each other (the "
-            "net's level is whichever wins, with a large current between them); the stages "
-            "driving it have no defined output",
+            f"{named} {'both' if len(drivers) == 2 else 'all'} drive net {net}: two outputs on "
+            "one net fight each other (the net's level is whichever wins, with a large current "
+            "between them); the stages driving it have no defined output",
             "keep one driver on the net: separate the outputs (each to its own net, or "
             "through a resistor each where they are meant to share a load) or remove the "
             "wrong connection", sheet,
