@@ -24,7 +24,10 @@ Built from the netlist and the recognised op-amp units, in named steps
    path to a driven net. Test points, labels, PWR_FLAG and the like never drive. A
    source resistance annotated on a connector (field ``Source_R``) or in the settings is
    placed between the net and its 0 V source;
-5. *place the resistors and the op-amps*, and list the assumptions made.
+5. *place the resistors and the op-amps*, and list the assumptions made: spare units
+   (output reaching nothing, inputs tied off or floating) are set aside, and nets that two
+   outputs drive (op-amp outputs, or one and an integrated circuit's output pin) are
+   listed in ``Network.tied``; capacitors keep their values for the messages.
 """
 
 from __future__ import annotations
