@@ -60,10 +60,16 @@ def test_follower_with_resistance_only_at_the_plus_input_is_flagged():
     assert finding.data["worst_case_after_v"] == pytest.approx(1e-3 + 0.4e-3 + 4.1125e-3,
                                                                rel=1e-9)
     assert finding.data["noise_v_per_rthz"] == pytest.approx(noise(82.5e3), rel=1e-12)
+    # Or the source resistance lowered: R1 at E24 8.2 kΩ gives 1 mV + 800n x 8.2k + 4.1k x
+    # 50n = 7.765 mV.
     assert finding.suggestion == (
         "add 82 kΩ (E96 82.5 kΩ, E24 82 kΩ) in the feedback path, from the output to the - "
         "input, bypassed by a capacitor where the signal or the loop needs it (unbypassed, "
-        f"82.5 kΩ adds its thermal noise, {noise(82.5e3) * 1e9:.3g} nV/√Hz at 70 °C)")
+        f"82.5 kΩ adds its thermal noise, {noise(82.5e3) * 1e9:.3g} nV/√Hz at 70 °C); or lower "
+        "R1 (in series with the + input: its source resistance) to 8.2 kΩ: whatever it "
+        "protects or filters moves with it (worst case 7.77 mV)")
+    assert finding.data["alternative_worst_case_after_v"] == pytest.approx(
+        1e-3 + 800e-9 * 8.2e3 + 4.1e3 * 50e-9, rel=1e-9)
     assert "falls from 68.7 mV to 5.51 mV" in finding.message
 
 

@@ -14,7 +14,8 @@ The changes tried, each only where it can be made without harming the circuit:
   or another part (then the resistor is the input's bias return, its only DC path, and a
   wire would short the signal);
 * where the + input sees more than the - input: resistance added in series with the -
-  input (for a follower: in the feedback path), and a lower bias-return resistor;
+  input (for a follower: in the feedback path), and a lower source resistance (the bias
+  return, or the one resistor in series with the + input from a source);
 * where the - input sees more and the + input has no resistor of its own: resistance added
   in series with the + input.
 
@@ -184,8 +185,10 @@ def _advise(ctx: StageContext, st: _Stage) -> Finding | None:
                            "add-series-plus", -gap, WORTH_ADDING)
         if found is not None:
             candidates.append(found)
-    if comp is not None and coupling and gap > 0 and matched:
-        lower = _lower_bias_return(ctx, st, comp)
+    source = comp if comp is not None and coupling else _series_source(ctx, k) \
+        if comp is None else None
+    if source is not None and gap > 0 and matched:
+        lower = _lower_bias_return(ctx, st, source)
         if lower is not None:
             candidates.append(lower)
     options = sorted(candidates, key=_after)
@@ -211,6 +214,19 @@ def _raised(ctx: StageContext, outcome: Outcome) -> tuple[str, dict]:
 
 def _after(candidate: _Candidate) -> float:
     return candidate.outcome.worst_case_v or 0.0
+
+
+def _series_source(ctx: StageContext, k: int) -> Resistor | None:
+    """The one resistor at the + input where it comes from a source (a connector, a driven
+    net): the input's source resistance."""
+    op = ctx.network.opamps[k]
+    at_plus = ctx.network.resistors_at(op.plus)
+    if len(at_plus) != 1:
+        return None
+    r = at_plus[0]
+    other = r.b if r.a == op.plus else r.a
+    why = ctx.network.fixed.get(other)
+    return r if why is not None and why != "rail" else None
 
 
 def _lower_bias_return(ctx: StageContext, st: _Stage, comp: Resistor) -> _Candidate | None:
@@ -276,11 +292,13 @@ def _describe(ctx: StageContext, st: _Stage, comp: Resistor | None, option: _Can
                 f"with {comp.ref} at {_ohms(change.ohms)} (E96)",
                 {"suggested_ohm": option.ideal, "verified_ohm": change.ohms})
     if option.action == "lower":
-        assert comp is not None
-        return (f"lower {comp.ref} (the + input's bias return, so its source resistance) to "
+        what = ("the + input's bias return, so its source resistance) to "
                 f"{_ohms(change.ohms)}: the input impedance and the coupling corner move with "
-                "it",
-                f"with {comp.ref} at {_ohms(change.ohms)}",
+                "it" if comp is not None else
+                "in series with the + input: its source resistance) to "
+                f"{_ohms(change.ohms)}: whatever it protects or filters moves with it")
+        return (f"lower {change.ref} ({what}",
+                f"with {change.ref} at {_ohms(change.ohms)}",
                 {"suggested_ohm": change.ohms, "verified_ohm": change.ohms})
     density, noise = _noise(ctx, change.ohms)
     where = ("in the feedback path, from the output to the - input" if follower and
@@ -334,7 +352,7 @@ def _mismatch(ctx: StageContext, st: _Stage, comp: Resistor | None, coupling: li
         suggestion, sheet,
         data={"resistance_plus_ohm": st.r_plus, "resistance_minus_ohm": st.r_minus,
               "bias_error_v": bias_term, **data,
-              "resistor": comp.ref if comp is not None and best.action in
+              "resistor": best.outcome.change.ref if best.action in
               ("change-value", "lower") else None,
               "action": best.action, "worst_case_v": st.before,
               "worst_case_after_v": best.outcome.worst_case_v, **alternative, **rise_data},
