@@ -123,6 +123,9 @@ class CompensationSchema(Schema):
     resistor_ohm = _num()
     ideal_ohm = _num()
     useful = fields.Boolean(allow_none=True)
+    minus_ohm = _num(metadata={
+        "description": "ohms to add in series with the - input (a follower: in the feedback "
+                       "path) where the + input sees more and cannot be lowered"})
 
 
 class PartRequirementsSchema(Schema):
@@ -242,6 +245,9 @@ class NotAnalysedSchema(Schema):
     reason = fields.String()
     id = fields.String()
     channel = fields.Integer(allow_none=True)
+    topology = fields.String(metadata={
+        "description": "what the unit is wired as, where known: comparator (open loop), "
+                       "spare, ..."})
 
 
 class DesignSchema(Schema):

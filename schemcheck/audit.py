@@ -36,12 +36,12 @@ from schemcheck.engine.dcerror import Solution
 from schemcheck.engine.montecarlo import monte_carlo_run
 from schemcheck.engine.network import Network, build_network
 from schemcheck.engine.travel import Setting, Travel, travels
-from schemcheck.engine.params import OpampParams, ParameterError, resolve
+from schemcheck.engine.params import OpampParams, ParameterError, at_temperature, resolve
 from schemcheck.engine.partmatch import PartsLibrary, sources_line
 from schemcheck.settings import Settings
 from schemcheck.engine.stages import OpampUnit, SkippedAmplifier, amplifier_name, recognise
 from schemcheck.engine.topology import label
-from schemcheck.units import ValueFormatError, parse_quantity
+from schemcheck.units import ValueFormatError, format_si, parse_quantity
 
 #: The audit's result for one design (the name the library has always used).
 DesignAudit = DesignResult
@@ -96,14 +96,14 @@ def audit_netlist(netlist: Netlist, settings: Settings,
                                                    s.part.value, s.reason,
                                                    amplifier_name(s.part)))
     for unit in network.unused:
+        how = network.spares.get(unit.key, "spare, output not connected")
         result.not_analysed.append(NotAnalysed(
             unit.part.ref, unit.part.unit, unit.part.sheet, unit.part.value,
-            "unused amplifier (inputs tied to rails or open, output not connected)", unit.name,
-            unit.channel))
+            f"unused amplifier ({how})", unit.name, unit.channel, "spare"))
     for unit, omission in omitted:
         result.not_analysed.append(NotAnalysed(unit.part.ref, unit.part.unit, unit.part.sheet,
                                                unit.part.value, omission.reason, unit.name,
-                                               unit.channel))
+                                               unit.channel, omission.topology))
     problems = list(network.problems)
     params: list[OpampParams] = []
     for op in network.opamps:
@@ -156,11 +156,15 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     ctx = StageContext(network, solution, params, budgets, limits, settings.temp_range,
                        settings.estimate_missing)
     findings: list[Finding] = []
-    findings.extend(_omission_finding(unit, omission) for unit, omission in omitted)
+    findings.extend(checks.check_outputs_tied(ctx))
+    findings.extend(_omission_finding(unit, omission, library, settings)
+                    for unit, omission in omitted)
     findings.extend(_comparator_findings(network))
-    for rule_check in (checks.check_bias_path, checks.check_feedback, checks.check_parameters,
+    for rule_check in (checks.check_bias_path, checks.check_feedback, checks.check_unsolvable,
+                       checks.check_spare_units, checks.check_parameters,
                        checks.check_part_match, checks.check_estimates,
-                       checks.check_bias_resistor, checks.check_budget):
+                       checks.check_bias_resistor, checks.check_bias_resistance,
+                       checks.check_budget):
         findings.extend(rule_check(ctx))
     sheet_file = {(op.unit.part.ref, op.unit.part.unit): op.unit.part.source_file
                   for op in network.opamps}
@@ -216,7 +220,8 @@ def _analysable(netlist: Netlist, units: list[OpampUnit], skipped: list[SkippedA
                                 source_resistance=settings.source_resistance, values=rules,
                                 excluded=excluded)
         solution = solve(network)
-        found = [o for o in omissions(network, solution)
+        found = [replace(o, topology=label(network, o.k, solution.status[o.k]))
+                 for o in omissions(network, solution)
                  if network.opamps[o.k].unit.key not in excluded]
         if not found:
             return network, solution, omitted
@@ -237,13 +242,71 @@ _SUGGESTIONS = {
 }
 
 
-def _omission_finding(unit: OpampUnit, omission: Omission) -> Finding:
+def _omission_finding(unit: OpampUnit, omission: Omission, library: PartsLibrary,
+                      settings: Settings) -> Finding:
+    if omission.hold is not None:
+        return _hold_finding(unit, omission, library, settings)
     suggestion = _SUGGESTIONS[omission.rule]
     if omission.unreadable is not None:
         suggestion += f" (for example {omission.unreadable.ref} = \"...\")"
-    return Finding(omission.rule, "warning", unit.part.ref, unit.part.unit,
+    if omission.rule == "open-loop" and omission.severity == "info":
+        suggestion = ("nothing to do if it is meant as a comparator (a comparator part has a "
+                      "faster output that needs no compensation); if it is meant as a gain "
+                      "stage, it lacks its feedback")
+    return Finding(omission.rule, omission.severity, unit.part.ref, unit.part.unit,
                    f"{unit.name} is not analysed: {omission.detail}", suggestion,
                    unit.part.sheet, channel=unit.channel, stage=unit.name)
+
+
+def _hold_finding(unit: OpampUnit, omission: Omission, library: PartsLibrary,
+                  settings: Settings) -> Finding:
+    """A sample-and-hold input: the droop rate Ib/C (capacitor law i = C dV/dt) at 25 °C
+    and at the top of the range, and the droop over the stated hold time."""
+    hold = omission.hold
+    assert hold is not None
+    try:
+        params = resolve(unit.part, library, estimate=settings.estimate_missing)
+    except ParameterError:
+        params = OpampParams()
+    low, high = settings.temp_range
+    hold_time = settings.hold_time
+    capacitance = hold.capacitance_f
+    caps = ", ".join(hold.capacitors)
+    data: dict[str, Any] = {"input": hold.side, "net": hold.net,
+                            "capacitors": list(hold.capacitors),
+                            "capacitance_f": capacitance, "switches": list(hold.switches),
+                            "hold_time_s": hold_time, "ib_a": params.ib}
+    shown_time = format_si(hold_time, "s")
+    if capacitance is None:
+        droop = (f"the droop rate Ib/C cannot be given: the value of {caps} could not be "
+                 "read")
+    elif params.ib is None:
+        per_na = 1e-9 / capacitance
+        droop = (f"droop rate Ib/C = {format_si(per_na, 'V/s')} per nA of bias current "
+                 f"({format_si(per_na * hold_time, 'V')} per nA over a {shown_time} hold) with "
+                 f"{format_si(capacitance, 'F')}; the part's Ib is not known")
+        data["droop_v_per_s_per_na"] = per_na
+    else:
+        hot = at_temperature(params, high, high).ib or params.ib
+        rate, rate_hot = params.ib / capacitance, hot / capacitance
+        droop = (f"droop rate Ib/C = {format_si(params.ib, 'A')} / "
+                 f"{format_si(capacitance, 'F')} = {format_si(rate, 'V/s')} "
+                 f"({format_si(rate * hold_time, 'V')} over a {shown_time} hold) at 25 °C")
+        if rate_hot > rate * (1 + 1e-9):
+            droop += (f", {format_si(rate_hot, 'V/s')} "
+                      f"({format_si(rate_hot * hold_time, 'V')}) at {high:g} °C")
+        data.update({"droop_v_per_s": rate, "droop_v": rate * hold_time, "ib_hot_a": hot,
+                     "droop_hot_v_per_s": rate_hot, "droop_hot_v": rate_hot * hold_time,
+                     "temp_hot_c": high})
+    del low
+    return Finding(
+        "hold-droop", "warning", unit.part.ref, unit.part.unit,
+        f"{unit.name} is not analysed: {omission.detail}; while the switch is open its bias "
+        f"current discharges the hold capacitor: {droop}",
+        "check the droop against the hold time and the accuracy needed; do not add a resistor "
+        "from that input to ground (it would discharge the hold): a part with lower Ib "
+        "(FET input) or a larger hold capacitor lowers the droop", unit.part.sheet,
+        data=data, channel=unit.channel, stage=unit.name)
 
 
 def _comparator_findings(network: Network) -> list[Finding]:
@@ -334,13 +397,16 @@ def _compensation(ctx: StageContext, k: int, r_plus: float | None,
     p = ctx.params[k]
     useful = p.bias_currents_matched if p.complete else None
     resistor = compensation_resistor(ctx, k)
+    scale = max(r_minus, r_plus)
+    # the + input sees more and no resistor there can be lowered enough: the - side
+    minus = r_plus - r_minus if r_plus - r_minus > 1e-9 * scale else None
     if resistor is not None:
         ideal = resistor.ohms + (r_minus - r_plus)
-        return Compensation(resistor.ref, resistor.ohms, ideal if ideal > 0 else None, useful)
+        return Compensation(resistor.ref, resistor.ohms, ideal if ideal > 0 else None, useful,
+                            minus if ideal <= 0 else None)
     added = r_minus - r_plus
-    scale = max(r_minus, r_plus)
     ideal = 0.0 if abs(added) <= 1e-9 * scale else added if added > 0 else None
-    return Compensation(None, None, ideal, useful)
+    return Compensation(None, None, ideal, useful, minus if ideal is None else None)
 
 
 def _split(ctx: StageContext, k: int, upstream: list[Upstream]) -> ErrorSplit | None:
@@ -396,7 +462,8 @@ def _stage_result(ctx: StageContext, mc: dict[int, float | None], k: int) -> Sta
                    if c else Sensitivity())
     return StageResult(
         ref=part.ref, unit=part.unit, channel=op.unit.channel, sheet=part.sheet,
-        value=part.value, topology=label(network, k, status), status=status,
+        value=part.value, topology=label(network, k, status, c.vos if c else None),
+        status=status,
         nets={"plus": op.plus, "minus": op.minus, "out": op.out},
         noise_gain=noise_gain,
         sensitivity=sensitivity,

@@ -170,13 +170,16 @@ class Compensation:
     ``resistor`` is the one resistor from the + input to a rail, if that is all the + input
     has; ``ideal_ohm`` is the value it should have, or (without one) the resistance to add
     in series with the + input; None where the + input already sees more than the - input
-    and no resistor there can be lowered. ``useful`` False for parts whose bias currents do
-    not track (the resistor should then be 0 Ω), None where the part is not known."""
+    and no resistor there can be lowered: then ``minus_ohm`` is the resistance to add in
+    series with the - input (for a follower, in the feedback path) instead. ``useful``
+    False for parts whose bias currents do not track (the resistor cancels little; whether
+    it adds error is a finding, solved again), None where the part is not known."""
 
     resistor: str | None = None
     resistor_ohm: float | None = None
     ideal_ohm: float | None = None
     useful: bool | None = None
+    minus_ohm: float | None = None
 
 
 @dataclass(slots=True)
@@ -323,6 +326,8 @@ class NotAnalysed:
     reason: str
     id: str = ""
     channel: int | None = None
+    #: what the unit is wired as where that is known ("comparator (open loop)", "spare")
+    topology: str = ""
 
 
 @dataclass(slots=True)

@@ -35,14 +35,19 @@ _RULES = (
          "Vos and Ib are integrated with no bound: the output drifts to a rail."),
     Rule("bias-resistor-mismatch", "warning", "Inputs see different DC resistances",
          "The resistance the + input sees differs from what the - input sees, so the bias "
-         "currents leave an Ib x R error; or adding a compensation resistor would cut the "
-         "error by more than half.",
+         "currents leave an Ib x R error: a compensation resistor of the wrong value "
+         "(warning), or resistance that could be added at either input or a lower source "
+         "resistance (info). Every suggestion is checked by solving the changed network and "
+         "states the worst case before and after; a resistor that is an input's only DC path "
+         "is never suggested for removal.",
          "On bipolar inputs with matched bias currents, equal resistances cancel Ib down to "
          "Ios x R (common practice)."),
     Rule("bias-resistor-harmful", "warning", "Compensation resistor that adds error",
-         "A bias-compensation resistor on an op-amp whose bias currents are not matched "
-         "(FET/CMOS inputs, internally bias-cancelled parts): it cancels nothing and adds "
-         "error.",
+         "A bias-compensation resistor whose removal (a wire in its place) lowers the "
+         "stage's worst case, solved again, as much as any other value would: on parts whose "
+         "input currents do not track (an offset current near twice the bias current or "
+         "more, as internally bias-cancelled and zero-drift parts may have) it cancels "
+         "nothing and adds error.",
          "Cancellation needs Ib+ and Ib- of one sign and size; otherwise the resistor only "
          "adds its own Ib x R term and noise."),
     Rule("missing-parameters", "warning", "Op-amp with no DC parameters",
@@ -82,8 +87,10 @@ _RULES = (
          "Taking such a part as open would report a missing path the drawing may well have."),
     Rule("open-loop", "warning", "Amplifier with no feedback at all",
          "Nothing leads from the output back to the - input, not even a capacitor: an "
-         "open-loop use (a comparator, or an amplifier with internal gain drawn like an "
-         "op-amp), not analysed as a gain stage.",
+         "open-loop use, not analysed as a gain stage. An op-amp used so as a comparator, "
+         "both inputs on DC paths, is info; an amplifier of unknown kind drawn like an "
+         "op-amp (it may have internal gain), or one with an input on no DC path, a "
+         "warning.",
          "An op-amp symbol with no feedback path is almost always a comparator use or a "
          "fixed-gain part, not a missing resistor."),
     Rule("comparator-symbol", "warning", "Comparator symbol wired as an op-amp",
@@ -98,6 +105,38 @@ _RULES = (
          "audited.",
          "A design the tool could not finish auditing has not been checked at all; the error "
          "is the tool's to fix, and the file shows how to reproduce it."),
+    Rule("outputs-tied", "error", "Two outputs driving one net",
+         "Two outputs drive one net: op-amp outputs, or an op-amp output and an integrated "
+         "circuit's output pin. They fight each other; the stages driving the net have no "
+         "defined output and the stages it feeds are marked so. The rest of the design is "
+         "still solved.",
+         "Push-pull outputs shorted together draw a large current and leave the net at "
+         "whichever wins."),
+    Rule("hold-droop", "warning", "Sample-and-hold input: bias current droop",
+         "An input held by a capacitor behind an analog switch (a sample-and-hold) has no DC "
+         "path while the switch is open: its bias current discharges the hold capacitor. "
+         "The finding gives the droop rate Ib/C in V/s and the droop over the stated hold "
+         "time (setting hold_time); a resistor to ground would destroy the hold.",
+         "The droop dV/dt = Ib/C sets how long a value may be held (capacitor law, i = C "
+         "dV/dt)."),
+    Rule("spare-inputs-floating", "warning", "Spare amplifier with floating inputs",
+         "A spare amplifier unit (its output reaches nothing) whose inputs float. A spare "
+         "tied off as a follower or with its inputs on rails is neither a stage nor a "
+         "finding.",
+         "A floating spare may oscillate or sit at a rail and draw supply current (common "
+         "practice: tie it off as a follower with its + input inside the input range)."),
+    Rule("high-bias-resistance", "warning", "Bias current through a large resistance",
+         "A bipolar input's bias current flows through a resistance over 1 MΩ, and the "
+         "bias-current terms alone use most of the stage's budget (warning) or, without a "
+         "budget, most of its worst case (info): the finding names the resistor and its "
+         "Ib x R.",
+         "Ib x R grows with R: above about 1 MΩ a bipolar input's bias current dominates "
+         "(common practice)."),
+    Rule("stage-unsolvable", "warning", "Stage whose DC network has no single solution",
+         "The stage's DC network could not be solved (its equations have no single "
+         "solution: inputs on one net, a loop of op-amps with nothing to set its level): "
+         "the stage is not analysed and the finding says what was seen.",
+         "A stage is never left without figures in silence."),
 )
 
 RULES: dict[str, Rule] = {rule.id: rule for rule in _RULES}

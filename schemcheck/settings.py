@@ -13,6 +13,7 @@ DEFAULT_SEED = 1
 #: how each Monte Carlo sample is solved: "update" (one factorisation per network, low-rank
 #: updates per sample) or "full" (a full solve per sample, the reference)
 MC_SOLVES = ("update", "full")
+DEFAULT_HOLD_TIME = 1e-3  # s: the hold time sample-and-hold droop is stated over
 
 
 @dataclass(frozen=True, slots=True)
@@ -42,6 +43,8 @@ class Settings:
     parts_library_named_at: tuple[str, int, int] | None = None
     #: which of the values above were set by the user (the rest are defaults)
     given: tuple[str, ...] = ()
+    #: seconds: the hold time a sample-and-hold input's droop is stated over
+    hold_time: float = DEFAULT_HOLD_TIME
 
     def parts_libraries(self) -> list[tuple[str, str]]:
         """(origin, path) of every parts library to read, the lowest precedence first:
@@ -72,6 +75,7 @@ class Settings:
             "estimate_missing": self.estimate_missing,
             "values": dict(self.values),
             "value_notations": [list(pair) for pair in self.value_notations],
+            "hold_time_s": self.hold_time,
             "defaults_used": [name for name in ("temp_range", "default_tolerance",
                                                 "default_budget") if name not in self.given],
             **({"charts": True} if self.charts else {}),

@@ -181,6 +181,49 @@ def parse_resistance(text: str, what: str = "resistance") -> float | None:
     return read_resistance(text, what).ohms
 
 
+_CAP = re.compile(r"^(?P<head>\d+(?:\.\d*)?|\.\d+)\s*(?P<mult>[pnuµμm]?)\s*(?P<tail>\d*)\s*"
+                  r"(?:F\b|F(?=[\s/,;])|F$)?(?P<rest>.*)$")
+_CAP_PREFIX = {"": 1.0, "m": 1e-3, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "n": 1e-9, "p": 1e-12}
+
+
+def read_capacitance(text: str) -> float | None:
+    """Farads from a capacitor's Value: ``100n``, ``100nF``, ``2n2``, ``4u7``, ``10 µF``,
+    ``1uF 50V X7R``; a bare number is farads only with a unit (``0.1uF``), and a bare
+    ``100`` (no prefix, no unit) is taken as picofarads (the usual marking). None where the
+    text is no capacitance (the caller then states its figure per farad)."""
+    raw = _clean(text)
+    match = _CAP.match(raw)
+    if not match:
+        return None
+    head, mult, tail = match.group("head"), match.group("mult"), match.group("tail")
+    if tail and ("." in head or not mult):
+        return None  # 4.7n7 or 47 7: not a value
+    number = float(f"{head}.{tail}" if tail else head)
+    rest = match.group("rest").strip()
+    if rest and not re.match(r"^[/,;\s]*(?:±?\d+(?:\.\d+)?\s*%|\d+(?:\.\d+)?\s*[kK]?V|"
+                             r"[XYCN]\d[A-Z0-9]*|NP0|C0G|COG)", rest, re.I):
+        return None
+    if not mult and not re.match(r"^\s*\S*F", raw[len(head):]):
+        scale = 1e-12  # a bare number on a capacitor: picofarads
+    else:
+        scale = _CAP_PREFIX[mult]
+    value = number * scale
+    return value if math.isfinite(value) and value > 0 else None
+
+
+_TIME = re.compile(r"^(" + _NUMBER + r")\s*(ms|us|µs|μs|ns|s)$")
+_TIME_SCALE = {"s": 1.0, "ms": 1e-3, "us": 1e-6, "µs": 1e-6, "μs": 1e-6, "ns": 1e-9}
+
+
+def parse_time(text: str, what: str = "time") -> float:
+    """Seconds from ``1ms``, ``100 us``, ``0.5s``."""
+    match = _TIME.match(_clean(text))
+    if not match or float(match.group(1)) <= 0:
+        raise ValueFormatError(f"expected {what} as a positive time (1ms, 100us, 0.5s), "
+                               f"found {text!r}")
+    return float(match.group(1)) * _TIME_SCALE[match.group(2)]
+
+
 def parse_tolerance(text: str, what: str = "tolerance") -> float:
     """A tolerance as a fraction: ``1%`` -> 0.01, ``0.1 %`` -> 0.001, ``±5%`` -> 0.05."""
     raw = _clean(text).lstrip("±").strip()

@@ -221,6 +221,80 @@ def inamp_follower() -> Sheet:
     return d.sheet
 
 
+def topologies() -> Sheet:
+    """One stage of each kind a reviewer names, for the topology labels."""
+    d = Drawing("topologies", 111)
+    j1 = d.part("Connector:Conn_01x03", "J1", "INPUTS")
+    d.net("IN", (j1, "1"))
+    d.net("IN2", (j1, "2"))
+    d.net("GND", (j1, "3"))
+    # U1: inverting with a T-network in the feedback
+    d.two_pin("Device:R", "R1", "10k", "IN", "M1")
+    d.two_pin("Device:R", "R2", "100k", "M1", "T1")
+    d.two_pin("Device:R", "R3", "100k", "T1", "O1")
+    d.two_pin("Device:R", "R4", "1k", "T1", "GND")
+    d.opamp("U1", "GND", "M1", "O1")
+    # U2: inverting summer about a mid-rail (R7/R8 divider, decoupled by C1)
+    d.two_pin("Device:R", "R5", "10k", "IN", "M2")
+    d.two_pin("Device:R", "R6", "20k", "IN2", "M2")
+    d.two_pin("Device:R", "R9", "100k", "M2", "O2")
+    d.two_pin("Device:R", "R7", "10k", "VCC", "P2")
+    d.two_pin("Device:R", "R8", "10k", "P2", "GND")
+    d.two_pin("Device:C", "C1", "10u", "P2", "GND")
+    d.opamp("U2", "P2", "M2", "O2")
+    # U3: transimpedance, a photodiode at the - input
+    d.two_pin("Device:D", "D1", "PDX-1", "M3", "GND")
+    d.two_pin("Device:R", "R10", "1M", "M3", "O3")
+    d.two_pin("Device:C", "C2", "2p2", "M3", "O3")
+    d.opamp("U3", "GND", "M3", "O3")
+    # U4: Sallen-Key low-pass, unity gain
+    d.two_pin("Device:R", "R11", "10k", "IN", "A4")
+    d.two_pin("Device:R", "R12", "10k", "A4", "P4")
+    d.two_pin("Device:C", "C3", "10n", "A4", "O4")
+    d.two_pin("Device:C", "C4", "4n7", "P4", "GND")
+    d.opamp("U4", "P4", "O4", "O4")
+    # U5: multiple-feedback low-pass
+    d.two_pin("Device:R", "R13", "10k", "IN", "A5")
+    d.two_pin("Device:R", "R14", "10k", "A5", "O5")
+    d.two_pin("Device:R", "R15", "10k", "A5", "M5")
+    d.two_pin("Device:C", "C5", "10n", "A5", "GND")
+    d.two_pin("Device:C", "C6", "1n", "M5", "O5")
+    d.opamp("U5", "GND", "M5", "O5")
+    # U6: integrator (no DC resistor across C7): a missing-feedback error
+    d.two_pin("Device:R", "R16", "10k", "IN", "M6")
+    d.two_pin("Device:C", "C7", "100n", "M6", "O6")
+    d.opamp("U6", "GND", "M6", "O6")
+    # U7: a DC follower whose gain network's foot is on C8 to ground (AC gain 101)
+    d.two_pin("Device:R", "R17", "100k", "M7", "O7")
+    d.two_pin("Device:R", "R18", "1k", "M7", "X7")
+    d.two_pin("Device:C", "C8", "10u", "X7", "GND")
+    d.opamp("U7", "IN", "M7", "O7")
+    # U8: the integrator capacitor not fitted: open loop, a comparator use
+    d.two_pin("Device:R", "R19", "10k", "IN", "M8")
+    d.two_pin("Device:C", "C9", "DNP", "M8", "O8")
+    d.opamp("U8", "GND", "M8", "O8")
+    return d.sheet
+
+
+def tied_outputs() -> Sheet:
+    """Two followers whose outputs share one net, a stage reading it, and an independent
+    inverting stage."""
+    d = Drawing("tied", 112)
+    j1 = d.part("Connector:Conn_01x03", "J1", "INPUTS")
+    d.net("IN", (j1, "1"))
+    d.net("IN2", (j1, "2"))
+    d.net("GND", (j1, "3"))
+    d.opamp("U1", "IN", "X", "X")
+    d.opamp("U2", "IN", "X", "X")
+    d.two_pin("Device:R", "R1", "10k", "X", "M3")
+    d.two_pin("Device:R", "R2", "10k", "M3", "O3")
+    d.opamp("U3", "GND", "M3", "O3")
+    d.two_pin("Device:R", "R3", "10k", "IN2", "M4")
+    d.two_pin("Device:R", "R4", "22k", "M4", "O4")
+    d.opamp("U4", "GND", "M4", "O4")
+    return d.sheet
+
+
 SHEETS: dict[str, Callable[[], Sheet]] = {
     "testpoint_summing": testpoint_summing,
     "label_summing": label_summing,
@@ -232,4 +306,6 @@ SHEETS: dict[str, Callable[[], Sheet]] = {
     "switch_bias": switch_bias,
     "transistor_feedback": transistor_feedback,
     "inamp_follower": inamp_follower,
+    "topologies": topologies,
+    "tied_outputs": tied_outputs,
 }

@@ -449,7 +449,26 @@ def random_circuit(seed: int, family: str | None = None) -> RandomCircuit:
         builder.family(name)
         circuit.families.append(name)
     _package(rng, circuit)
+    _take_outputs_out(circuit)
     return circuit
+
+
+def _take_outputs_out(circuit: RandomCircuit) -> None:
+    """A follower whose output reaches nothing else is how a spare is tied off (common
+    practice); a stage's output is taken somewhere: a global label on every follower
+    output that nothing else uses (no random draw, so the circuits stay the same)."""
+    used: dict[str, int] = {}
+    for part in circuit.parts:
+        for net in (part.a, part.b):
+            used[net] = used.get(net, 0) + 1
+    for amp in circuit.amps:
+        for net in (amp.plus, amp.minus):
+            used[net] = used.get(net, 0) + 1
+    for conn in circuit.connectors:
+        used[conn.net] = used.get(conn.net, 0) + 1
+    for amp in circuit.amps:
+        if amp.minus == amp.out and used.get(amp.out, 0) <= 1:
+            circuit.global_outputs.add(amp.out)
 
 
 def circuits(count: int, base_seed: int = 1) -> list[RandomCircuit]:

@@ -43,6 +43,13 @@ def test_demo_findings(demo):
     ]
     mismatch = next(f for f in demo["findings"] if f["rule"] == "bias-resistor-mismatch")
     assert mismatch["suggestion"] == "change R403 to 9.09 kΩ (E96 9.09 kΩ, E24 9.1 kΩ)"
+    # Verified by solving again with R403 = 9.09k: the Ib terms cancel to
+    # |11 x 9.09k - 100k| x 120n and Ios gives (11 x 9.09k + 100k)/2 x 12 nA = 1.2 mV; at
+    # 70 °C Vos 250 µV + 45 x 1.5 µV/°C = 317.5 µV x 11 (handbook error terms).
+    s_ib = abs(11 * 9.09e3 - 100e3)
+    s_ios = (11 * 9.09e3 + 100e3) / 2
+    after = 11 * 317.5e-6 + s_ib * 120e-9 + s_ios * 12e-9
+    assert mismatch["data"]["worst_case_after_v"] == pytest.approx(after, rel=1e-4)
     assert demo["not_analysed"][0]["ref"] == "U1" and demo["not_analysed"][0]["unit"] == 2
 
 

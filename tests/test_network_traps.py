@@ -132,9 +132,27 @@ def test_comparator_symbol_wired_as_follower_is_analysed_with_a_warning():
 
 
 def test_analog_switch_in_bias_path_is_not_an_error():
+    # A sample-and-hold: the hold capacitor C1 (1 nF) behind the analog switch U2. While
+    # the switch is open the bias current discharges C1: dV/dt = Ib / C (capacitor law
+    # i = C dV/dt) = 10 nA / 1 nF = 10 V/s, 10 mV over the default 1 ms hold; bipolar
+    # currents are flat over temperature, so the same at 70 °C.
     result = audit("switch_bias")
-    assert rules(result) == [("dc-path-unknown", "warning", "U1")]
-    assert "U2 (analog switch or multiplexer)" in result.findings[0].message
+    assert rules(result) == [("hold-droop", "warning", "U1")]
+    finding = result.findings[0]
+    assert "U2 (analog switch or multiplexer)" in finding.message
+    assert "droop rate Ib/C = 10 nA / 1 nF = 10 V/s (10 mV over a 1 ms hold) at 25 °C" in \
+        finding.message
+    assert finding.data["droop_v_per_s"] == pytest.approx(10e-9 / 1e-9, rel=1e-12)
+    assert finding.data["droop_v"] == pytest.approx(10.0 * 1e-3, rel=1e-12)
+    assert "do not add a resistor" in finding.suggestion
+    assert "U1" in not_analysed(result)
+
+
+def test_hold_droop_over_a_stated_hold_time():
+    # The hold time from the settings: 10 V/s over 50 us = 0.5 mV.
+    result = audit("switch_bias", hold_time=50e-6)
+    assert result.findings[0].data["droop_v"] == pytest.approx(10.0 * 50e-6, rel=1e-12)
+    assert "(500 µV over a 50 µs hold)" in result.findings[0].message
 
 
 def test_transistor_in_feedback_loop_is_not_an_error():

@@ -147,11 +147,24 @@ def test_which_inputs_have_matched_bias_currents(entry, matched):
 
 
 def test_compensation_resistor_on_a_chopper_is_harmful():
+    # A chopper whose Ios is twice its Ib (the input currents do not track). The budget's
+    # worst case (handbook terms |s_vos| Vos + |s_ib| Ib + |s_ios| Ios, NG 11, currents flat):
+    # with R3 = 47k, s_ib+ = -517k, s_ib- = 100k: 55u + 417k x 300p + 308.5k x 600p = 365 uV;
+    # R3 replaced by a wire: 55u + 100k x 300p + 50k x 600p = 115 uV; R3 at the balancing
+    # 9.09k: 55u + 0.01k x 300p + 99.995k x 600p = 115.0 uV, no better than the wire.
     library = {"OPX-1": {"input": "chopper", "vos": "5uV", "ib": "300pA", "ios": "600pA"}}
-    design = audit(("R1 GND m 10k", "R2 m out 100k", "R3 p GND 9.1k",
+    design = audit(("R1 GND m 10k", "R2 m out 100k", "R3 p GND 47k",
                     "U1 p=p m=m out=out value=OPX-1"), library)
     harmful = [f for f in design["findings"] if f["rule"] == "bias-resistor-harmful"]
     assert len(harmful) == 1 and "the part is zero-drift (chopper)" in harmful[0]["message"]
+    assert harmful[0]["data"]["worst_case_v"] == pytest.approx(
+        55e-6 + 417e3 * 300e-12 + 308.5e3 * 600e-12, rel=1e-9)
+    assert harmful[0]["data"]["worst_case_after_v"] == pytest.approx(115e-6, rel=1e-9)
+    # With R3 = 9.1k the resistor neither helps nor harms by the same terms (115.06 uV as
+    # drawn, 115 uV without): no advice either way.
+    design = audit(("R1 GND m 10k", "R2 m out 100k", "R3 p GND 9.1k",
+                    "U1 p=p m=m out=out value=OPX-1"), library)
+    assert [f for f in design["findings"] if f["rule"].startswith("bias-resistor")] == []
 
 
 @pytest.mark.parametrize(("words", "kind", "label"), [

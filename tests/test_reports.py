@@ -45,13 +45,16 @@ U2/1 difference NG 10.66, R+ = R- = 9.38 kΩ (JSON), LX-P7: Vos 10.66 x 60 µV =
   0 (equal resistances, left out), Ios 100 kΩ x 3 nA = 300 µV, drift 45 x 0.6 µV x 10.66 = 288 µV.
 U4/1 inverting Ri 10k Rf 100k Rp 22k, LX-B27: NG 11, R- = Ri||Rf = 9.09 kΩ; Vos 2.75 mV, Ib
   |100k - 11 x 22k| x 120 nA = 17.0 mV (Ib+ alone -29 mV, Ib- alone 12 mV), Ios 171k x 12 nA
-  = 2.05 mV, drift 11 x 45 x 1.5 µV = 742 µV; compensation R403 -> Ri||Rf = 9.09 kΩ.
+  = 2.05 mV, drift 11 x 45 x 1.5 µV = 742 µV; compensation R403 -> Ri||Rf = 9.09 kΩ;
+  solved again with 9.09 kΩ, at 70 °C: 11 x 317.5 µV = 3.49 mV + |100k - 99.99k| x 120 nA
+  = 1.2 µV + 99.995k x 12 nA = 1.2 mV -> 4.69 mV (from 22.6 mV).
 U4/2 non-inverting NG 11 (Rf 10k, Rg 1k, R- 909 Ω): Vos 2.75 mV, Ib 10k x 120 nA = 1.2 mV, Ios
   5k x 12 nA = 60 µV, U4/1 x 11: 11 x 21.84 = 240 mV, drift 12 x 742 µV = 8.91 mV, total 253 mV;
   upstream at 70 °C 11 x 22.58 = 248 mV > 20 mV budget -> no part meets it.
 mixer (--budget 10mV, no part data): U1/2 inverting Rf 5k, NG 3.083: coefficients 3.08·Vos +
   5 mV/µA·Ib-, R- = Rf/NG = 1.62 kΩ; needs alone 10 mV/3.083 = 3.24 mV, 10 mV/5k = 2 µA,
-  10 mV/2.5k = 4 µA, /3 -> 1.08 mV, 667 nA, 1.33 µA; U1/1 summing Rf 100k, NG 5.826: alone
+  10 mV/2.5k = 4 µA, /3 -> 1.08 mV, 667 nA, 1.33 µA; U1/1 inverting summer (two source
+  resistors at the - input, + on ground) Rf 100k, NG 5.826: alone
   1.72 mV, 100 nA, 200 nA. Its assumptions: 3 lines (rails; 8 external nets; 17 pots).
 """
 

@@ -1,24 +1,63 @@
-"""``bias-resistor-mismatch`` and ``bias-resistor-harmful``.
+"""``bias-resistor-mismatch`` and ``bias-resistor-harmful``: advice on the resistances the
+inputs see, every piece of it verified by solving the changed network.
 
-From the stage's own sensitivities (exact for any network, finite gain included):
-the resistance the + input effectively sees is ``-s_ib+ / s_vos`` and the one the -
-input sees ``s_ib- / s_vos`` (for the simple stages: Rp and Ri||Rf). The Ib term of the
-output error vanishes when the two are equal.
+From the stage's own sensitivities (exact for any network, finite gain included): the
+resistance the + input effectively sees is ``-s_ib+ / s_vos`` and the one the - input sees
+``s_ib- / s_vos`` (for the simple stages: Rp and Ri||Rf). The Ib term of the output error
+vanishes when the two are equal (bipolar inputs, matched bias currents).
+
+The changes tried, each only where it can be made without harming the circuit:
+
+* the + input's one resistor to a rail at the value that balances the inputs (the nearest
+  E96 value);
+* that resistor replaced by a wire, unless a signal reaches the + input through a capacitor
+  or another part (then the resistor is the input's bias return, its only DC path, and a
+  wire would short the signal);
+* where the + input sees more than the - input: resistance added in series with the -
+  input (for a follower: in the feedback path), and a lower source resistance (the bias
+  return, or the one resistor in series with the + input from a source);
+* where the - input sees more and the + input has no resistor of its own: resistance added
+  in series with the + input.
+
+Parts are added (and a bias return lowered) only for inputs whose bias currents track
+(bipolar inputs without internal cancellation, :attr:`OpampParams.bias_currents_matched`):
+elsewhere an added resistor cancels nothing and costs noise (common practice).
+
+Each change is solved (:mod:`schemcheck.engine.variants`); advice is given only where the
+stage's worst case over temperature falls (by at least :data:`WORTHWHILE` for a value,
+:data:`WORTH_ADDING` for a part added, :data:`NOT_WORTH_A_PART` for a resistor replaced by
+a wire, which is preferred where it does as well as any value), its noise gain is
+unchanged and no other stage gets worse by more than :data:`OTHERS_RISE` of its own worst
+case (a rise is stated with the advice).
+The finding states the worst case before and after. A resistor added unbypassed costs its
+thermal noise, sqrt(4kTR) at the top of the temperature range, stated with the advice.
 """
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
+from schemcheck.checks.context import StageContext
 from schemcheck.engine.eseries import nearest
+from schemcheck.engine.network import Resistor
+from schemcheck.engine.variants import Change, Outcome, WhatIf, thermal_noise
 from schemcheck.model import Finding
 from schemcheck.units import format_si
-from schemcheck.checks.context import StageContext
 
-MATCH_BAND = 1.2  # common practice: within 20 % counts as matched
-SIGNIFICANT = 0.1  # the Ib term must be at least this share of the stage's worst case
-
-
-def _worst(s_vos: float, s_p: float, s_m: float, vos: float, ib: float, ios: float) -> float:
-    return abs(s_vos) * vos + abs(s_p + s_m) * ib + abs(s_p - s_m) / 2 * ios
+#: A suggestion must cut the stage's worst case by at least this share to be worth a part
+#: change (common practice: smaller gains drown in the parts' spread).
+WORTHWHILE = 0.1
+#: Adding a part (or lowering a bias return, which moves the input's coupling corner) is
+#: suggested where it cuts the worst case by at least half (common practice).
+WORTH_ADDING = 0.5
+#: Replacing a resistor by a wire is worth saying where it cuts the worst case by this share
+#: (a part that only adds error costs nothing to leave out).
+NOT_WORTH_A_PART = 0.01
+#: Another stage's worst case may rise by this share of its own at most (a stage sharing a
+#: summing bus sees a little of the changed stage's input currents); the rise is stated.
+OTHERS_RISE = 0.01
+#: Relative change of the noise gain that counts as "unchanged".
+SAME_GAIN = 1e-6
 
 
 def _ohms(value: float) -> str:
@@ -26,12 +65,10 @@ def _ohms(value: float) -> str:
 
 
 def _values(ideal: float) -> str:
-    if ideal <= 0:  # a follower: the - input sees the output, 0 Ω
-        return "a wire, no resistor"
     return f"E96 {_ohms(nearest(ideal, 'E96'))}, E24 {_ohms(nearest(ideal, 'E24'))}"
 
 
-def compensation_resistor(ctx: StageContext, k: int):
+def compensation_resistor(ctx: StageContext, k: int) -> Resistor | None:
     """The one resistor from the + input to a rail, when that is all the + input has."""
     op = ctx.network.opamps[k]
     at_plus = ctx.network.resistors_at(op.plus)
@@ -42,88 +79,281 @@ def compensation_resistor(ctx: StageContext, k: int):
     return r if ctx.network.fixed.get(other) == "rail" else None
 
 
+def coupled_input(ctx: StageContext, net: str) -> list[str]:
+    """Parts through which a signal reaches ``net`` other than resistors: capacitors to
+    anything but a rail, and parts the tool does not model."""
+    network = ctx.network
+    found = sorted(ref for ref, a, b in network.capacitors
+                   if net in (a, b) and network.fixed.get(b if a == net else a) != "rail")
+    found += sorted(ref for ref, nets in network.may_conduct.items() if net in nets)
+    return found
+
+
+@dataclass(slots=True)
+class _Candidate:
+    outcome: Outcome
+    action: str  # change-value, replace-with-wire, add-series-minus, add-series-plus, lower
+    ideal: float  # the exact value that balances (ohms; the E96 value is what is solved)
+
+
+class _Stage:
+    """The advice for one stage."""
+
+    def __init__(self, ctx: StageContext, whatif: WhatIf, k: int) -> None:
+        self.ctx = ctx
+        self.whatif = whatif
+        self.k = k
+        own = ctx.solution.own(k) or {}
+        self.s_vos, self.s_p, self.s_m = own["vos"], own["ib_plus"], own["ib_minus"]
+        self.r_plus = -self.s_p / self.s_vos + 0.0
+        self.r_minus = self.s_m / self.s_vos + 0.0
+        self.before = whatif.before(k) or 0.0
+        self.op = ctx.network.opamps[k]
+
+    def attempt(self, change: Change, action: str, ideal: float, cut: float
+                ) -> _Candidate | None:
+        outcome = self.whatif.attempt(self.k, change)
+        if (outcome is None or outcome.worst_case_v is None or outcome.noise_gain is None
+                or outcome.solution.status[self.k] != "ok"):
+            return None
+        if abs(outcome.noise_gain - self.s_vos) > SAME_GAIN * abs(self.s_vos):
+            return None  # it would change what the stage does
+        if any(after is None or after - before > OTHERS_RISE * before
+               for before, after in outcome.raised.values()):
+            return None  # another stage gets worse
+        if outcome.worst_case_v >= self.before * (1.0 - cut) or \
+                outcome.worst_case_v >= self.before * (1.0 - 1e-9):
+            return None
+        return _Candidate(outcome, action, ideal)
+
+
+def _scope(ctx: StageContext, k: int) -> str:
+    low, high = ctx.temp_range
+    own = ctx.budgets[k].worst_case_over_temp_v is None
+    return (f"{'own ' if own else ''}worst case over {low:g} to {high:g} °C")
+
+
+def _noise(ctx: StageContext, ohms: float) -> tuple[float, str]:
+    top = ctx.temp_range[1]
+    density = thermal_noise(ohms, top)
+    return density, (f"unbypassed, {_ohms(ohms)} adds its thermal noise, "
+                     f"{density * 1e9:.3g} nV/√Hz at {top:g} °C")
+
+
 def check_bias_resistor(ctx: StageContext) -> list[Finding]:
     findings = []
-    for k, status in enumerate(ctx.solution.status):
+    whatif = WhatIf(ctx.network, ctx.solution, ctx.params, ctx.temp_range)
+    for k in range(len(ctx.network.opamps)):
         own = ctx.solution.own(k)
-        params = ctx.params[k]
-        if own is None or not params.complete or own["vos"] == 0:
+        if own is None or not ctx.params[k].complete or own["vos"] == 0:
             continue
-        s_vos, s_p, s_m = own["vos"], own["ib_plus"], own["ib_minus"]
-        r_plus = -s_p / s_vos
-        r_minus = s_m / s_vos
-        ref, unit, sheet = ctx.who(k)
-        name = ctx.name(k)
-        comp = compensation_resistor(ctx, k)
-        vos, ib, ios = params.vos, params.ib, params.ios
-        if not params.bias_currents_matched:
-            if comp is None or r_plus <= 0:
-                continue
-            added = abs(s_p) * ib
-            why = ("FET-input" if params.is_fet else
-                   "zero-drift (chopper)"
-                   if params.input_type == "chopper" else
-                   "internally bias-cancelled (Ib of either polarity)" if params.ib_either_sign
-                   else f"Ios ({format_si(ios, 'A')}) not much smaller than Ib")
-            findings.append(Finding(
-                "bias-resistor-harmful", "warning", ref, unit,
-                f"{comp.ref} ({_ohms(comp.ohms)}) at the + input of {name} is a bias-"
-                f"compensation resistor, but the part is {why}: its bias currents do not "
-                f"track, so the resistor cancels nothing and adds up to {format_si(added, 'V')} "
-                "of output error at 25 °C (Ib+ x Rp x noise gain), more when hot",
-                f"replace {comp.ref} with 0 Ω (or a wire); keep it only if it also protects the "
-                "input, and then budget its error", sheet,
-                data={"resistor": comp.ref, "resistor_ohm": comp.ohms,
-                      "added_error_v": added}, **ctx.ids(k)))
+        stage = _Stage(ctx, whatif, k)
+        if stage.before <= 0:
             continue
-        worst = _worst(s_vos, s_p, s_m, vos, ib, ios)
-        if r_plus > 0.01 * r_minus:
-            ratio = r_plus / r_minus if r_minus > 0 else float("inf")
-            bias_term = abs(s_p + s_m) * ib
-            if 1 / MATCH_BAND <= ratio <= MATCH_BAND or bias_term < SIGNIFICANT * worst:
-                continue
-            if ctx.network.opamps[k].minus == ctx.network.opamps[k].out:
-                # A follower: its - input sees nothing. Common practice: a resistor equal
-                # to what the + input sees, from the output to the - input, balances the
-                # bias currents and leaves the gain at 1.
-                ideal = r_plus  # the feedback resistor to add
-                what = f"{name} is a unity-gain buffer"
-                fix = (f"add {_ohms(r_plus)} ({_values(r_plus)}) between the output and the - "
-                       "input (the buffer's gain stays 1) so both inputs see the same "
-                       "resistance")
-            elif comp is not None:
-                ideal = comp.ohms + (r_minus - r_plus)
-                if ideal <= 0:
-                    continue
-                what = (f"{comp.ref} ({_ohms(comp.ohms)}) at the + input of {name} is meant to "
-                        "cancel the bias-current error")
-                fix = f"change {comp.ref} to {_ohms(ideal)} ({_values(ideal)})"
-            elif r_minus > 0:
-                ideal = r_minus
-                what = f"the + input of {name} sees {_ohms(r_plus)} through its network"
-                fix = (f"make the + input see {_ohms(ideal)} ({_values(ideal)}) so the bias "
-                       "currents cancel")
-            else:
-                continue  # no resistance to match the + input to: no value to suggest
-            findings.append(Finding(
-                "bias-resistor-mismatch", "warning", ref, unit,
-                f"{what}, but the + input sees {_ohms(r_plus)} and the - input "
-                f"{_ohms(r_minus)}: the mismatch leaves {format_si(bias_term, 'V')} of Ib error "
-                "at the output", fix, sheet,
-                data={"resistance_plus_ohm": r_plus, "resistance_minus_ohm": r_minus,
-                      "bias_error_v": bias_term, "suggested_ohm": ideal,
-                      "resistor": comp.ref if comp is not None else None}, **ctx.ids(k)))
-        elif r_minus > 0:
-            improved = _worst(s_vos, s_p - r_minus * s_vos, s_m, vos, ib, ios)
-            if improved < 0.5 * worst:
-                findings.append(Finding(
-                    "bias-resistor-mismatch", "info", ref, unit,
-                    f"{name}: a resistor of {_ohms(r_minus)} in series with the + input would "
-                    f"cut the worst-case error from {format_si(worst, 'V')} to "
-                    f"{format_si(improved, 'V')} (the bias currents of this part are matched)",
-                    f"add {_ohms(r_minus)} ({_values(r_minus)}) in series with the + input, "
-                    "bypassed with a capacitor if noise matters", sheet,
-                    data={"resistance_minus_ohm": r_minus, "worst_case_v": worst,
-                          "worst_case_after_v": improved, "suggested_ohm": r_minus},
-                    **ctx.ids(k)))
+        finding = _advise(ctx, stage)
+        if finding is not None:
+            findings.append(finding)
     return findings
+
+
+def _advise(ctx: StageContext, st: _Stage) -> Finding | None:
+    k, op = st.k, st.op
+    comp = compensation_resistor(ctx, k)
+    coupling = coupled_input(ctx, op.plus) if comp is not None else []
+    candidates: list[_Candidate] = []
+    wire: _Candidate | None = None
+    ideal = comp.ohms + (st.r_minus - st.r_plus) if comp is not None else 0.0
+    if comp is not None:
+        if ideal > 0:
+            found = st.attempt(Change("value", comp.ref, nearest(ideal, "E96")),
+                               "change-value", ideal, WORTHWHILE)
+            if found is not None:
+                candidates.append(found)
+        if not coupling:
+            wire = st.attempt(Change("wire", comp.ref), "replace-with-wire", 0.0,
+                              NOT_WORTH_A_PART)
+    gap = st.r_plus - st.r_minus
+    scale = max(st.r_plus, st.r_minus)
+    matched = ctx.params[k].bias_currents_matched  # adding parts pays only where Ib tracks
+    if gap > 1e-9 * scale and ideal <= 0 and matched:  # nothing at the + input balances
+        found = st.attempt(Change("series", "Radd", nearest(gap, "E96"), k, "-"),
+                           "add-series-minus", gap, WORTH_ADDING)
+        if found is not None:
+            candidates.append(found)
+    elif -gap > 1e-9 * scale and comp is None and matched:
+        found = st.attempt(Change("series", "Radd", nearest(-gap, "E96"), k, "+"),
+                           "add-series-plus", -gap, WORTH_ADDING)
+        if found is not None:
+            candidates.append(found)
+    source = comp if comp is not None and coupling else _series_source(ctx, k) \
+        if comp is None else None
+    if source is not None and gap > 0 and matched:
+        lower = _lower_bias_return(ctx, st, source)
+        if lower is not None:
+            candidates.append(lower)
+    options = sorted(candidates, key=_after)
+    if comp is not None and wire is not None and all(
+            _after(wire) <= _after(c) * (1.0 + NOT_WORTH_A_PART) for c in options):
+        return _harmful(ctx, st, comp, wire)  # as good as any value: the part adds nothing
+    if not options:
+        return None
+    return _mismatch(ctx, st, comp, coupling, options)
+
+
+def _raised(ctx: StageContext, outcome: Outcome) -> tuple[str, dict]:
+    """The other stages the change makes (a little) worse, in words and as data."""
+    if not outcome.raised:
+        return "", {}
+    words = ", ".join(f"{ctx.name(j)}'s from {format_si(before, 'V')} to "
+                      f"{format_si(after, 'V')}" for j, (before, after) in
+                      sorted(outcome.raised.items()))
+    return (f" (it raises {words} a little: they share part of its input network)",
+            {"others_raised_v": {ctx.name(j): (after or 0.0) - before
+                                 for j, (before, after) in sorted(outcome.raised.items())}})
+
+
+def _after(candidate: _Candidate) -> float:
+    return candidate.outcome.worst_case_v or 0.0
+
+
+def _series_source(ctx: StageContext, k: int) -> Resistor | None:
+    """The one resistor at the + input where it comes from a source (a connector, a driven
+    net): the input's source resistance."""
+    op = ctx.network.opamps[k]
+    at_plus = ctx.network.resistors_at(op.plus)
+    if len(at_plus) != 1:
+        return None
+    r = at_plus[0]
+    other = r.b if r.a == op.plus else r.a
+    why = ctx.network.fixed.get(other)
+    return r if why is not None and why != "rail" else None
+
+
+def _lower_bias_return(ctx: StageContext, st: _Stage, comp: Resistor) -> _Candidate | None:
+    """The bias-return resistor lowered: to the largest E24 value that keeps the stage
+    within its budget where it has one and is over it, else to a tenth of its value."""
+    limit = ctx.budget_limits[st.k]
+    if limit is not None and st.before > limit:
+        value = nearest(comp.ohms, "E24")
+        best = None
+        for _ in range(60):
+            value = nearest(value / 1.1, "E24")
+            if value < 10.0:
+                break
+            found = st.attempt(Change("value", comp.ref, value), "lower", value, WORTH_ADDING)
+            if found is not None and (found.outcome.worst_case_v or 0.0) <= limit:
+                best = found
+                break
+        if best is not None:
+            return best
+    value = nearest(comp.ohms / 10.0, "E24")
+    return st.attempt(Change("value", comp.ref, value), "lower", value, WORTH_ADDING)
+
+
+def _harmful(ctx: StageContext, st: _Stage, comp: Resistor, wire: _Candidate) -> Finding:
+    k, params = st.k, ctx.params[st.k]
+    ref, unit, sheet = ctx.who(k)
+    after = wire.outcome.worst_case_v or 0.0
+    rise, rise_data = _raised(ctx, wire.outcome)
+    if not params.bias_currents_matched:
+        why = ("the part is " + ("FET-input" if params.is_fet else
+                                 "zero-drift (chopper)" if params.input_type == "chopper" else
+                                 "internally bias-cancelled (Ib of either polarity)"
+                                 if params.ib_either_sign else
+                                 f"one whose Ios ({format_si(params.ios, 'A')}) is not much "
+                                 f"smaller than Ib") +
+               ": its bias currents do not track, so the resistor cancels nothing")
+    else:
+        why = (f"the + input sees {_ohms(st.r_plus)} and the - input {_ohms(st.r_minus)}: "
+               "it unbalances the inputs more than it balances them")
+    return Finding(
+        "bias-resistor-harmful", "warning", ref, unit,
+        f"{comp.ref} ({_ohms(comp.ohms)}) at the + input of {ctx.name(k)} is a bias-"
+        f"compensation resistor, but {why}; solved again with {comp.ref} replaced by a wire, "
+        f"the {_scope(ctx, k)} falls from {format_si(st.before, 'V')} to "
+        f"{format_si(after, 'V')}{rise}",
+        f"replace {comp.ref} with 0 Ω (a wire); keep it only if it also protects the input, "
+        "and then budget its error", sheet,
+        data={"resistor": comp.ref, "resistor_ohm": comp.ohms,
+              "added_error_v": st.before - after, "action": "replace-with-wire",
+              "suggested_ohm": 0.0, "worst_case_v": st.before, "worst_case_after_v": after,
+              **rise_data},
+        **ctx.ids(k))
+
+
+def _describe(ctx: StageContext, st: _Stage, comp: Resistor | None, option: _Candidate
+              ) -> tuple[str, str, dict]:
+    """(what to do, the note for the message, data) for one verified option."""
+    change = option.outcome.change
+    follower = st.op.minus == st.op.out
+    if option.action == "change-value":
+        assert comp is not None
+        return (f"change {comp.ref} to {_ohms(option.ideal)} ({_values(option.ideal)})",
+                f"with {comp.ref} at {_ohms(change.ohms)} (E96)",
+                {"suggested_ohm": option.ideal, "verified_ohm": change.ohms})
+    if option.action == "lower":
+        what = ("the + input's bias return, so its source resistance) to "
+                f"{_ohms(change.ohms)}: the input impedance and the coupling corner move with "
+                "it" if comp is not None else
+                "in series with the + input: its source resistance) to "
+                f"{_ohms(change.ohms)}: whatever it protects or filters moves with it")
+        return (f"lower {change.ref} ({what}",
+                f"with {change.ref} at {_ohms(change.ohms)}",
+                {"suggested_ohm": change.ohms, "verified_ohm": change.ohms})
+    density, noise = _noise(ctx, change.ohms)
+    where = ("in the feedback path, from the output to the - input" if follower and
+             option.action == "add-series-minus" else
+             f"in series with the {'-' if option.action == 'add-series-minus' else '+'} input")
+    bypass = ("bypassed by a capacitor where the signal or the loop needs it" if
+              option.action == "add-series-minus" else
+              "bypassed with a capacitor if noise matters")
+    return (f"add {_ohms(option.ideal)} ({_values(option.ideal)}) {where}, {bypass} "
+            f"({noise})",
+            f"with {_ohms(change.ohms)} {where}",
+            {"suggested_ohm": option.ideal, "verified_ohm": change.ohms,
+             "noise_v_per_rthz": density, "noise_temp_c": ctx.temp_range[1]})
+
+
+def _mismatch(ctx: StageContext, st: _Stage, comp: Resistor | None, coupling: list[str],
+              options: list[_Candidate]) -> Finding:
+    k, name = st.k, ctx.name(st.k)
+    ref, unit, sheet = ctx.who(k)
+    ib = ctx.params[k].ib or 0.0
+    bias_term = abs(st.s_p + st.s_m) * ib
+    best = options[0]
+    fix, note, data = _describe(ctx, st, comp, best)
+    suggestion = fix
+    alternative: dict = {}
+    if len(options) > 1 and {best.action, options[1].action} == {"add-series-minus", "lower"}:
+        other_fix, other_note, other_data = _describe(ctx, st, comp, options[1])
+        other_after = format_si(options[1].outcome.worst_case_v, "V")
+        suggestion += f"; or {other_fix} (worst case {other_after})"
+        alternative = {"alternative_action": options[1].action,
+                       "alternative_ohm": other_data["verified_ohm"],
+                       "alternative_worst_case_after_v": options[1].outcome.worst_case_v}
+    sides = (f"the + input sees {_ohms(st.r_plus)} and the - input {_ohms(st.r_minus)}: the "
+             f"mismatch leaves {format_si(bias_term, 'V')} of Ib error at the output")
+    if best.action == "change-value" and comp is not None and not coupling:
+        what = (f"{comp.ref} ({_ohms(comp.ohms)}) at the + input of {name} is meant to cancel "
+                f"the bias-current error, but {sides}")
+        severity = "warning"
+    elif comp is not None and coupling:
+        what = (f"{comp.ref} ({_ohms(comp.ohms)}) is the bias return of {name}'s + input "
+                f"(its only DC path; the signal comes through {', '.join(coupling)}): {sides}")
+        severity = "info"
+    else:
+        what = f"{name}: {sides}"
+        severity = "info"
+    rise, rise_data = _raised(ctx, best.outcome)
+    return Finding(
+        "bias-resistor-mismatch", severity, ref, unit,
+        f"{what}; solved again {note}, the {_scope(ctx, k)} falls from "
+        f"{format_si(st.before, 'V')} to {format_si(best.outcome.worst_case_v, 'V')}{rise}",
+        suggestion, sheet,
+        data={"resistance_plus_ohm": st.r_plus, "resistance_minus_ohm": st.r_minus,
+              "bias_error_v": bias_term, **data,
+              "resistor": best.outcome.change.ref if best.action in
+              ("change-value", "lower") else None,
+              "action": best.action, "worst_case_v": st.before,
+              "worst_case_after_v": best.outcome.worst_case_v, **alternative, **rise_data},
+        **ctx.ids(k))

@@ -11,9 +11,10 @@ Modified nodal analysis over each connected part of the network, every op-amp in
   need no special cases; rounding noise far below a row's scale is taken as 0
   (:data:`NOISE`).
 
-An op-amp whose input has no DC path (``no-bias-path``) or whose output has no DC path
-back to its inverting input (``no-dc-feedback``) has no defined DC output. It is solved
-as a source of unknown value: its own figures are unknown, and any output that depends
+An op-amp whose input has no DC path (``no-bias-path``), whose output has no DC path
+back to its inverting input (``no-dc-feedback``) or whose output net another output drives
+too (``outputs-tied``: the first of them stands for the net) has no defined DC output. It
+is solved as a source of unknown value: its own figures are unknown, and any output that depends
 on it is marked ``tainted`` (its totals unknown, never a made-up number).
 """
 
@@ -86,6 +87,7 @@ class Solution:
 
     #: per op-amp index: "ok", "no-bias-path", "no-dc-feedback", "unsolvable", "output-fixed",
     #: "too-large" (its network has more than MAX_UNKNOWNS unknowns)
+    #: "outputs-tied" (its output net is driven by another output too)
     status: list[str]
     #: op-amp k -> {(op-amp j, source): dVout_k / dsource}
     sensitivity: list[dict[tuple[int, str], float]]
@@ -198,7 +200,15 @@ def build_system(network: Network, component: Component, status: list[str]) -> S
     per op-amp whose output net is not fixed)."""
     rows = {net: i for i, net in enumerate(component.nets)}
     n = len(rows)
-    drivers = [k for k in component.opamps if network.opamps[k].out in rows]
+    drivers = []
+    taken: set[str] = set()
+    for k in component.opamps:
+        out = network.opamps[k].out
+        if out not in rows or out in taken:
+            continue  # a second output on one net: the first stands for the net (unknown)
+        if out in network.tied:
+            taken.add(out)
+        drivers.append(k)
     size = n + len(drivers)
     base = np.zeros((size, size))
     columns: list[tuple[int, str]] = []
@@ -251,6 +261,9 @@ def solve(network: Network) -> Solution:
     for k, op in enumerate(network.opamps):
         if op.out in network.fixed:
             status[k] = "output-fixed"
+            continue
+        if op.out in network.tied:
+            status[k] = "outputs-tied"  # its level is whichever output wins: unknown
             continue
         for sign, net in (("+", op.plus), ("-", op.minus)):
             if net not in grounded:

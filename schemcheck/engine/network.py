@@ -24,7 +24,10 @@ Built from the netlist and the recognised op-amp units, in named steps
    path to a driven net. Test points, labels, PWR_FLAG and the like never drive. A
    source resistance annotated on a connector (field ``Source_R``) or in the settings is
    placed between the net and its 0 V source;
-5. *place the resistors and the op-amps*, and list the assumptions made.
+5. *place the resistors and the op-amps*, and list the assumptions made: spare units
+   (output reaching nothing, inputs tied off or floating) are set aside, and nets that two
+   outputs drive (op-amp outputs, or one and an integrated circuit's output pin) are
+   listed in ``Network.tied``; capacitors keep their values for the messages.
 """
 
 from __future__ import annotations
@@ -38,8 +41,9 @@ from schemcheck.circuit.kinds import Kind, classify
 from schemcheck.circuit.values import PartValue, UnreadableValue, ValueRules, is_not_fitted, \
     part_value
 from schemcheck.engine.stages import OpampUnit, SkippedAmplifier, output_pins
-from schemcheck.model import Netlist, Part, natural_key
-from schemcheck.units import ValueFormatError, parse_resistance, parse_tolerance
+from schemcheck.model import Netlist, Part, Pin, natural_key
+from schemcheck.units import ValueFormatError, parse_resistance, parse_tolerance, \
+    read_capacitance
 
 #: Pin types that drive a net when they belong to an integrated circuit.
 _DRIVING = ("output", "power_out", "bidirectional", "tri_state")
@@ -91,6 +95,23 @@ class Pot:
 
 
 @dataclass(frozen=True, slots=True)
+class OutputDriver:
+    """An output pin that drives a net: its part, unit, pin, and ``stage`` (the op-amp
+    stage identifier where it is an op-amp's output, else "")."""
+
+    ref: str
+    unit: int
+    pin: str
+    stage: str = ""
+    pin_type: str = "output"
+
+    def describe(self) -> str:
+        if self.stage:
+            return f"{self.stage} output (pin {self.pin})"
+        return f"{self.ref} pin {self.pin} ({self.pin_type})"
+
+
+@dataclass(frozen=True, slots=True)
 class Unreadable:
     """A resistive part whose value could not be read, and the nets it touches."""
 
@@ -128,6 +149,14 @@ class Network:
     #: fixed nets driven by an amplifier that is not analysed: net -> its name and kind
     driven_by: dict[str, str] = field(default_factory=dict)
     pots: list[Pot] = field(default_factory=list)
+    #: capacitors' values in farads (None where the Value could not be read), by reference
+    capacitance: dict[str, float | None] = field(default_factory=dict)
+    #: nets driven by two outputs or more, at least one an op-amp's: net -> the drivers
+    tied: dict[str, list[OutputDriver]] = field(default_factory=dict)
+    #: spare amplifier units (in ``unused``) by key: how they are tied off, in words
+    spares: dict[tuple[str, int, int | None], str] = field(default_factory=dict)
+    #: spare units whose inputs float, with the floating pins ("pin 5 (+)")
+    floating_spares: list[tuple[OpampUnit, list[str]]] = field(default_factory=list)
 
     _by_net: dict[str, list[Resistor]] | None = None
 
@@ -147,11 +176,21 @@ class Network:
 
     def with_resistors(self, resistors: list[Resistor]) -> "Network":
         """The same network with other resistor values (a potentiometer's travel)."""
-        copy = Network(resistors, self.opamps, self.fixed, self.canonical, self.capacitors,
+        return self.variant(resistors=resistors)
+
+    def variant(self, *, resistors: list[Resistor] | None = None,
+                opamps: list[OpampNode] | None = None, fixed: dict[str, str] | None = None,
+                capacitors: list[tuple[str, str, str]] | None = None) -> "Network":
+        """The same network with other resistors, op-amps, fixed nets or capacitors (what
+        the solver reads); everything else is shared with this one."""
+        return Network(self.resistors if resistors is None else resistors,
+                       self.opamps if opamps is None else opamps,
+                       self.fixed if fixed is None else fixed, self.canonical,
+                       self.capacitors if capacitors is None else capacitors,
                        self.open_parts, self.assumptions, self.problems, self.unused,
                        self.unreadable, self.may_conduct, self.kinds, self.leaves,
-                       self.driven_by, self.pots)
-        return copy
+                       self.driven_by, self.pots, self.capacitance, self.tied, self.spares,
+                       self.floating_spares)
 
 
 class _Merge:
@@ -197,6 +236,7 @@ class _Builder:
         self.resistors: list[tuple[str, str, str, float, float, str]] = []
         self.pots: list[tuple[str, str, float, int, int]] = []  # name, ref, ohms, i_a, i_b
         self.capacitors: list[tuple[str, str, str]] = []
+        self.capacitance: dict[str, float | None] = {}
         self.open_parts: dict[str, set[str]] = {}
         self.may_conduct: dict[str, set[str]] = {}
         self.kinds: dict[str, str] = {}
@@ -342,6 +382,7 @@ def _stamp_capacitance(b: _Builder, part: Part, kind: Kind) -> None:
     one, two = nets
     if one is not None and two is not None:
         b.capacitors.append((part.ref, one, two))
+        b.capacitance[part.ref] = read_capacitance(part.value)
 
 
 def _stamp_short(b: _Builder, part: Part, kind: Kind) -> None:
@@ -483,7 +524,11 @@ def build_network(netlist: Netlist, units: list[OpampUnit], skipped: list[Skippe
     fixed, driven_by, notes = _fix_nets(builder, netlist, analysed + promoted,
                                         [u for u in units if u.key in excluded], canon)
     resistors, pots = _place_resistors(builder, canon, fixed)
-    opamps, unused, problems = _place_opamps(netlist, pin_net, analysed, promoted, fixed, canon)
+    opamps, unused, problems, spares, floating = _place_opamps(
+        netlist, pin_net, analysed, promoted, fixed, canon, resistors,
+        [u for u in units if u.key in excluded])
+    tied = _tied_outputs(netlist, pin_net, [*analysed, *promoted],
+                         [u for u in units if u.key in excluded], skipped, fixed, canon)
     network = Network(
         resistors, opamps, fixed, canonical, [(r, canon(a), canon(b)) for r, a, b in
                                               builder.capacitors],
@@ -492,7 +537,8 @@ def build_network(netlist: Netlist, units: list[OpampUnit], skipped: list[Skippe
         [Unreadable(u.ref, u.field, u.text, u.why, frozenset(canon(n) for n in u.nets))
          for u in builder.unreadable],
         {ref: {canon(n) for n in nets} for ref, nets in builder.may_conduct.items()},
-        builder.kinds, {canon(n): why for n, why in builder.leaves.items()}, driven_by, pots)
+        builder.kinds, {canon(n): why for n, why in builder.leaves.items()}, driven_by, pots,
+        dict(builder.capacitance), tied, spares, floating)
     _note_sources(network, notes)
     return network
 
@@ -876,33 +922,158 @@ def _place_resistors(b: _Builder, canon: Callable[[str], str], fixed: dict[str, 
 
 def _place_opamps(netlist: Netlist, pin_net: dict[tuple[str, str], str],
                   units: list[OpampUnit], promoted: list[OpampUnit], fixed: dict[str, str],
-                  canon: Callable[[str], str]
-                  ) -> tuple[list[OpampNode], list[OpampUnit], list[str]]:
-    """Step 5b: op-amp units between their merged nets; spare units tied off."""
+                  canon: Callable[[str], str], resistors: list[Resistor],
+                  left_out: list[OpampUnit]
+                  ) -> tuple[list[OpampNode], list[OpampUnit], list[str],
+                             dict[tuple[str, int, int | None], str],
+                             list[tuple[OpampUnit, list[str]]]]:
+    """Step 5b: op-amp units between their merged nets; spare units set aside.
+
+    A unit whose output reaches nothing but its own pins (no other pin, no global or
+    hierarchical label: a sheet read alone may take it on elsewhere) is set aside:
+
+    * where an input floats (on no net, or alone on its net): a spare with floating
+      inputs, listed with the pins;
+    * where both inputs are on rails (the old tie-off), or, for a unit of a package whose
+      other amplifiers are in use (analysed, or left out of the analysis), where its
+      inputs are tied off: the + input on a source or a divider between sources (no
+      other stage's signal) and the - input on the output (a follower) or so too.
+
+    Anything else stays a stage, wherever its output goes."""
     opamps = []
     unused = []
     problems = []
+    spares: dict[tuple[str, int, int | None], str] = {}
+    floating_spares: list[tuple[OpampUnit, list[str]]] = []
     loads: dict[str, int] = {}
+    labelled: set[str] = set()
     for net in netlist.nets:
-        loads[canon(net.name)] = loads.get(canon(net.name), 0) + len(net.nodes)
+        name = canon(net.name)
+        loads[name] = loads.get(name, 0) + len(net.nodes)
+        if net.is_global or net.kind in ("global_label", "hierarchical_label", "power"):
+            labelled.add(name)  # it may lead on to another sheet or design
     comparators = {u.key for u in promoted}
-    for unit in [*units, *promoted]:
-        ref = unit.part.ref
-        ends = [pin_net.get((ref, pin.number)) for pin in (unit.plus, unit.minus, unit.out)]
-        if ends[2] is None or (ends[0] is None and ends[1] is None):
-            unused.append(unit)  # nothing on the output, or both inputs open: not a stage
+    everyone = [*units, *promoted]
+    outputs = {canon(n) for n in (pin_net.get((u.part.ref, u.out.number)) for u in everyone)
+               if n is not None}
+    neighbours: dict[str, set[str]] = {}
+    for r in resistors:
+        neighbours.setdefault(r.a, set()).add(r.b)
+        neighbours.setdefault(r.b, set()).add(r.a)
+
+    def quiet(net: str) -> bool:
+        """On a source, or joined through resistors to sources only (a divider between
+        rails, a reference): a level the design sets, not another stage's signal."""
+        if net in fixed:
+            return True
+        seen, queue, ends = {net}, deque([net]), set()
+        while queue:
+            for other in neighbours.get(queue.popleft(), ()):
+                if other in outputs:
+                    return False
+                if other in fixed:
+                    ends.add(other)
+                elif other not in seen:
+                    seen.add(other)
+                    queue.append(other)
+        return bool(ends)
+
+    placed: dict[tuple[str, int, int | None], list[str | None]] = {}
+    for unit in everyone:
+        placed[unit.key] = [canon(n) if n is not None else None for n in
+                            (pin_net.get((unit.part.ref, pin.number))
+                             for pin in (unit.plus, unit.minus, unit.out))]
+
+    def nowhere(key: tuple[str, int, int | None], net: str | None) -> bool:
+        """Nothing but this unit's own pins on ``net`` (or no net at all)."""
+        if net is None:
+            return True
+        own = sum(1 for other in placed[key] if other == net)
+        return net not in labelled and net not in fixed and loads.get(net, 0) <= own
+
+    idle = {key for key, nets in placed.items() if nowhere(key, nets[2])}
+    for unit in everyone:
+        ref, key = unit.part.ref, unit.key
+        plus, minus, out = placed[key]
+        floating = [f"pin {pin.number} ({sign})" for pin, net, sign in
+                    zip((unit.plus, unit.minus), (plus, minus), ("+", "-"))
+                    if nowhere(key, net) and net != out]
+        siblings = any(other.part.ref == ref and other.key != key and other.key not in idle
+                       for other in everyone) or any(other.part.ref == ref
+                                                     for other in left_out)
+        rails = fixed.get(plus or "") == "rail" and fixed.get(minus or "") == "rail"
+        tied = plus is not None and quiet(plus) and minus is not None and (
+            minus == out or quiet(minus))
+        if key in idle and (floating or rails or (siblings and tied)):
+            unused.append(unit)
+            if floating:
+                spares[key] = f"spare, inputs floating ({', '.join(floating)})"
+                floating_spares.append((unit, floating))
+            elif minus == out:
+                spares[key] = "spare, tied off as a follower"
+            elif rails:
+                spares[key] = "spare, inputs tied to rails, output not connected"
+            else:
+                spares[key] = "spare, inputs tied off, output not connected"
             continue
-        if None in ends:
+        if out is None or (plus is None and minus is None):
+            unused.append(unit)  # nothing on the output, or both inputs open: not a stage
+            spares[key] = "spare, output or inputs not connected"
+            continue
+        if plus is None or minus is None:
             problems.append(f"{ref}: an input pin of unit {unit.part.unit} is on no net; the "
                             "stage is not analysed")
             continue
-        plus, minus, out = (canon(n) for n in ends)
-        if (fixed.get(plus) == "rail" and fixed.get(minus) == "rail" and loads.get(out, 0) <= 1):
-            unused.append(unit)  # the usual tie-off of a spare amplifier
-            continue
         opamps.append(OpampNode(unit, plus, minus, out,
-                                symbol="comparator" if unit.key in comparators else ""))
-    return opamps, unused, problems
+                                symbol="comparator" if key in comparators else ""))
+    return opamps, unused, problems, spares, floating_spares
+
+
+#: Pin types that make a part drive its net for the two-outputs check (bidirectional and
+#: tri-state pins are often inputs: an ADC or port pin on an op-amp's output is normal).
+_HARD_OUTPUTS = ("output", "power_out")
+
+
+def _tied_outputs(netlist: Netlist, pin_net: dict[tuple[str, str], str],
+                  analysed: list[OpampUnit], left_out: list[OpampUnit],
+                  skipped: list[SkippedAmplifier], fixed: dict[str, str],
+                  canon: Callable[[str], str]) -> dict[str, list[OutputDriver]]:
+    """Nets that two outputs or more drive, at least one of them an op-amp's: net -> the
+    drivers. Op-amp outputs, the push-pull outputs of amplifiers not analysed and the
+    output and power-output pins of integrated circuits count; supply rails (a power
+    symbol's net, which an op-amp may itself generate as a virtual ground) do not."""
+    drivers: dict[str, list[OutputDriver]] = {}
+    opamp_nets: set[str] = set()
+    seen: set[tuple[str, str]] = set()
+
+    def add(part: Part, pin: Pin, stage: str = "") -> None:
+        raw = pin_net.get((part.ref, pin.number))
+        if raw is None or (part.ref, pin.number) in seen:
+            return
+        seen.add((part.ref, pin.number))
+        net = canon(raw)
+        drivers.setdefault(net, []).append(OutputDriver(part.ref, part.unit, pin.number, stage,
+                                                        pin.electrical_type))
+        if stage:
+            opamp_nets.add(net)
+
+    opamp_units = {(u.part.ref, u.part.unit) for u in [*analysed, *left_out]}
+    for unit in [*analysed, *left_out]:
+        add(unit.part, unit.out, unit.name)
+    amplifiers = {(s.part.ref, s.part.unit): s for s in skipped}
+    for part in netlist.parts:
+        if part.dnp or part.is_power or (part.ref, part.unit) in opamp_units:
+            continue
+        if (part.ref, part.unit) in amplifiers:
+            pins = [p for p in output_pins(part) if p.electrical_type in _HARD_OUTPUTS]
+        elif classify(part).dc == "ic":
+            pins = [p for p in part.pins if p.electrical_type in _HARD_OUTPUTS]
+        else:
+            continue
+        for pin in pins:
+            add(part, pin)
+    return {net: found for net, found in sorted(drivers.items())
+            if len(found) > 1 and net in opamp_nets and fixed.get(net) != "rail"}
 
 
 def _note_sources(network: Network, notes: list[str]) -> None:

@@ -276,6 +276,20 @@ def recognise(parts: tuple[Part, ...] | list[Part]
     return units, skipped
 
 
+def described_as_opamp(part: Part) -> bool:
+    """True where the part says it is an op-amp: from the editor's op-amp library, the
+    field ``Opamp=yes``, or "op-amp"/"operational amplifier" in its description, keywords,
+    value or symbol name."""
+    if _forced(part):
+        return True
+    library = part.lib_id.partition(":")[0].lower() if ":" in part.lib_id else ""
+    if library == "amplifier_operational":
+        return True
+    name = part.lib_id.rpartition(":")[2].replace("_", " ")
+    text = " ".join((part.description, part.keywords, part.value, name))
+    return bool(_OPAMP_NAMED.search(text) or re.search(r"\bopamp", text, re.I))
+
+
 def _skip_reason(part: Part, text: str, forced: bool | None) -> str | None:
     if forced:
         return None

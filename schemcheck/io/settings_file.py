@@ -13,6 +13,7 @@
     BRIDGE = "350"
     [values]                          # values the drawing gives in a form not read
     R13 = "1M"
+    hold_time = "1ms"                 # sample-and-hold droop is stated over this time
     [[value_notation]]                # house notations, tried where a Value is not read
     match = '^t(.+)$'                 # a regular expression over the whole Value
     value = '\1'                      # what it means ('t2k' is a 2 kΩ trimmer)
@@ -32,7 +33,8 @@ from schemcheck.rules import RULES
 from schemcheck.errors import ParseError
 from schemcheck.settings import MC_SOLVES, Settings
 from schemcheck.units import (ValueFormatError, check_temperature_range, parse_quantity,
-                              parse_resistance, parse_tolerance, read_resistance)
+                              parse_resistance, parse_time, parse_tolerance,
+                              read_resistance)
 from schemcheck.io.files import (check_allowed, read_text, toml_document, toml_error,
                                   toml_position)
 from schemcheck.io.resolve import SETTINGS_NAME, library_path
@@ -42,7 +44,7 @@ from schemcheck.io.resolve import SETTINGS_NAME, library_path
 MAX_SEED = 2**63 - 1
 _KEYS = ("temperature_range", "default_budget", "default_tolerance", "parts_library",
          "rules_off", "monte_carlo_samples", "monte_carlo_solve", "seed", "source_resistance",
-         "estimate_missing", "values", "value_notation")
+         "estimate_missing", "values", "value_notation", "hold_time")
 
 
 def _finite_number(value: Any) -> bool:
@@ -130,6 +132,8 @@ def apply_settings(data: dict[str, Any], path: str, base: Settings,
             changes["values"] = _values(data["values"], bad)
         if "value_notation" in data:
             changes["value_notations"] = _notations(data["value_notation"], bad)
+        if "hold_time" in data:
+            changes["hold_time"] = parse_time(str(data["hold_time"]), "hold_time")
     except ValueFormatError as error:
         raise located(str(error), current) from None
     if "parts_library" in data:

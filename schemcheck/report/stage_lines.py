@@ -84,10 +84,17 @@ def compensation(s: Stage) -> str:
     ideal, resistor, useful = comp.get("ideal_ohm"), comp.get("resistor"), comp.get("useful")
     if useful is False:
         if resistor:
-            return (f"{resistor} ({ohms(comp['resistor_ohm'])}) cancels nothing: the bias "
-                    "currents do not track, 0 Ω is best")
+            return (f"{resistor} ({ohms(comp['resistor_ohm'])}) cancels little: the bias "
+                    "currents do not track")
         return ""
     when = " for matched (bipolar) inputs" if useful is None else ""
+    minus = comp.get("minus_ohm")
+    if minus:
+        nets = s.get("nets") or {}
+        follower = bool(nets.get("minus")) and nets.get("minus") == nets.get("out")
+        where = "in the feedback path" if follower else "in series with the - input"
+        return (f"the + input sees more: {ohms(minus)} {where} would balance the inputs "
+                f"({_e96(minus)}){when}")
     if resistor:
         if ideal is None:
             return f"{resistor} cannot balance the inputs (the + input sees more)"

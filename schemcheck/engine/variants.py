@@ -1,0 +1,175 @@
+"""What a change of one part would do: the network with one resistor changed, replaced
+by a wire, removed or added, solved again (pure).
+
+Advice is given only where solving the changed network shows that it lowers the error
+(:mod:`schemcheck.checks.bias_resistor`); the worst case is the budget's own
+(:func:`schemcheck.engine.budget.stage_budget`), so the figures before and after are the
+ones the report shows for the stage.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+
+from schemcheck.engine.budget import stage_budget, total_at
+from schemcheck.engine.dcerror import Solution, solve
+from schemcheck.engine.network import Network, Resistor
+from schemcheck.engine.params import OpampParams
+
+#: Boltzmann's constant, J/K (exact since the 2019 SI redefinition, BIPM SI Brochure 9th ed.)
+BOLTZMANN = 1.380649e-23
+KELVIN = 273.15
+
+
+@dataclass(frozen=True, slots=True)
+class Change:
+    """One change to one part.
+
+    ``kind``: ``value`` (resistor ``ref`` to ``ohms``), ``wire`` (``ref`` replaced by a
+    wire), ``remove`` (``ref`` taken out), ``series`` (a new resistor ``ref`` of ``ohms``
+    in series with op-amp ``opamp``'s ``pin``, ``+`` or ``-``)."""
+
+    kind: str
+    ref: str
+    ohms: float = 0.0
+    opamp: int = -1
+    pin: str = ""
+
+
+def apply(network: Network, change: Change) -> Network | None:
+    """``network`` with ``change`` made; None where it cannot be made (a wire between two
+    sources, a resistor that is not there)."""
+    if change.kind == "series":
+        return _series(network, change)
+    found = [i for i, r in enumerate(network.resistors) if r.ref == change.ref]
+    if len(found) != 1:
+        return None
+    index = found[0]
+    old = network.resistors[index]
+    if change.kind == "value":
+        if change.ohms <= 0:
+            return None
+        resistors = list(network.resistors)
+        resistors[index] = replace(old, ohms=change.ohms)
+        return network.variant(resistors=resistors)
+    if change.kind == "remove":
+        return network.variant(resistors=[r for i, r in enumerate(network.resistors)
+                                          if i != index])
+    if change.kind == "wire":
+        return _merge(network, index)
+    raise ValueError(f"unknown change {change.kind!r}")
+
+
+def _merge(network: Network, index: int) -> Network | None:
+    """Resistor ``index`` replaced by a wire: its two nets become one."""
+    old = network.resistors[index]
+    if old.a in network.fixed and old.b in network.fixed:
+        return None  # a wire between two sources
+    keep, drop = (old.b, old.a) if old.b in network.fixed else (old.a, old.b)
+
+    def net(name: str) -> str:
+        return keep if name == drop else name
+
+    resistors = [replace(r, a=net(r.a), b=net(r.b)) for i, r in enumerate(network.resistors)
+                 if i != index]
+    resistors = [r for r in resistors if r.a != r.b]
+    opamps = [replace(op, plus=net(op.plus), minus=net(op.minus), out=net(op.out))
+              for op in network.opamps]
+    capacitors = [(ref, net(a), net(b)) for ref, a, b in network.capacitors]
+    return network.variant(resistors=resistors, opamps=opamps, capacitors=capacitors)
+
+
+def _series(network: Network, change: Change) -> Network | None:
+    if not 0 <= change.opamp < len(network.opamps) or change.ohms <= 0:
+        return None
+    op = network.opamps[change.opamp]
+    old = op.plus if change.pin == "+" else op.minus
+    new = f"{old} ({change.ref} at {op.unit.name} {change.pin})"
+    opamps = list(network.opamps)
+    opamps[change.opamp] = (replace(op, plus=new) if change.pin == "+"
+                            else replace(op, minus=new))
+    resistors = [*network.resistors, Resistor(change.ref, new, old, change.ohms, 0.01,
+                                              "suggested")]
+    return network.variant(resistors=resistors, opamps=opamps)
+
+
+def worst_case(solution: Solution, k: int, params: list[OpampParams],
+               temp_range: tuple[float, float]) -> float | None:
+    """Stage k's worst-case output error over the temperature range (volts): the total
+    where every op-amp reaching it has figures, else its own terms alone; None where its
+    output is undefined or its own figures are missing."""
+    if solution.status[k] != "ok" or not params[k].complete:
+        return None
+    total = stage_budget(solution, k, params, temp_range).worst_case_over_temp_v
+    if total is not None:
+        return total
+    low, high = temp_range
+    return max(total_at(solution, k, params, temp, high, [k]) for temp in {low, high})
+
+
+@dataclass(frozen=True, slots=True)
+class Outcome:
+    """A change solved: stage k's noise gain and worst case after it (volts), and the
+    other stages whose worst case it raises: index -> (before, after) in volts (after None
+    where the stage loses its defined output)."""
+
+    change: Change
+    network: Network
+    solution: Solution
+    noise_gain: float | None
+    worst_case_v: float | None
+    raised: dict[int, tuple[float, float | None]]
+
+
+class WhatIf:
+    """Changes tried on one solved network; the unchanged worst cases are kept."""
+
+    def __init__(self, network: Network, solution: Solution, params: list[OpampParams],
+                 temp_range: tuple[float, float]) -> None:
+        self.network = network
+        self.solution = solution
+        self.params = params
+        self.temp_range = temp_range
+        self._before: dict[int, float | None] = {}
+
+    def before(self, k: int) -> float | None:
+        """Stage k's worst case as drawn (volts; see :func:`worst_case`)."""
+        if k not in self._before:
+            self._before[k] = worst_case(self.solution, k, self.params, self.temp_range)
+        return self._before[k]
+
+    def attempt(self, k: int, change: Change) -> Outcome | None:
+        """Solve the network with ``change`` made and measure stage k and every other
+        solved stage again; None where the change cannot be made."""
+        changed = apply(self.network, change)
+        if changed is None:
+            return None
+        after = solve(changed)
+        own = after.own(k)
+        raised: dict[int, tuple[float, float | None]] = {}
+        for j in range(len(self.network.opamps)):
+            if j == k or self.solution.status[j] != "ok":
+                continue
+            before_j = self.before(j)
+            if before_j is None:
+                continue
+            after_j = worst_case(after, j, self.params, self.temp_range)
+            if after_j is None or after_j > before_j:
+                raised[j] = (before_j, after_j)
+        return Outcome(change, changed, after, own["vos"] if own else None,
+                       worst_case(after, k, self.params, self.temp_range), raised)
+
+
+def only_dc_path(network: Network, k: int, ref: str) -> bool:
+    """True where resistor ``ref`` is the only DC path of an input of op-amp k: without it
+    the input floats (its bias return)."""
+    changed = apply(network, Change("remove", ref))
+    if changed is None:
+        return False
+    return solve(changed).status[k] == "no-bias-path"
+
+
+def thermal_noise(ohms: float, temp_c: float) -> float:
+    """A resistor's thermal noise density sqrt(4kTR), V/sqrt(Hz), at ``temp_c`` °C."""
+    return math.sqrt(4.0 * BOLTZMANN * (temp_c + KELVIN) * ohms)
