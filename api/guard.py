@@ -20,8 +20,9 @@ HTTP server as soon as the headers have arrived (before any body is read):
 from __future__ import annotations
 
 import hmac
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
-from typing import Any, Callable, Mapping
+from typing import Any
 from urllib.parse import urlsplit
 
 CLIENT_HEADER = "X-Schemcheck-Client"

@@ -8,15 +8,14 @@ from __future__ import annotations
 def _warm() -> None:
     from schemcheck.audit import audit_netlist
     from schemcheck.circuit import load  # noqa: F401
-    from schemcheck.io import partslib, settings_file  # noqa: F401
-    from schemcheck.io.kicad_sch import read_sheet
     from schemcheck.circuit.connectivity import build_netlist
     from schemcheck.drawing import Design
+    from schemcheck.io import partslib, settings_file  # noqa: F401
+    from schemcheck.io.kicad_sch import read_sheet
+    from schemcheck.model import Net, Netlist, Node, Part, Pin
     from schemcheck.report import markdown, sarif  # noqa: F401
     from schemcheck.report.json import to_data
     from schemcheck.settings import Settings
-
-    from schemcheck.model import Net, Netlist, Node, Part, Pin
 
     text = ('(kicad_sch (version 20250114) (generator "eeschema") (uuid "0")'
             ' (lib_symbols) (wire (pts (xy 0 0) (xy 1 0))))')

@@ -83,7 +83,8 @@ class AuditRunner:
             except FutureTimeout:
                 self._replace(pool)
                 raise Problem(503, "Audit timed out", f"the audit took longer than "
-                                                      f"{self.timeout:g} s and was stopped") from None
+                                                      f"{self.timeout:g} s and was stopped"
+                                                      ) from None
             except BrokenProcessPool:
                 self._replace(pool)
                 raise Problem(503, "Workers restarted", "the audit workers were restarted while "

@@ -5,8 +5,8 @@ from __future__ import annotations
 import os
 import sys
 import time
+from collections.abc import Callable
 from pathlib import Path
-from typing import Callable
 
 # as the command line does (schemcheck/cli.py): one BLAS thread per process
 for _variable in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):

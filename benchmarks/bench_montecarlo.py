@@ -76,7 +76,8 @@ def fixtures() -> None:
         network, solution, params = engine(lines)
         samples = 2000 if name.startswith("mesh") else FIXTURE_SAMPLES
 
-        def run(how: str, iterations: int = 40, seed: int = 1):
+        def run(how: str, iterations: int = 40, seed: int = 1, network=network,
+                solution=solution, params=params, samples=samples):
             return monte_carlo_run(network, solution, params, (0.0, 70.0), samples, seed, how,
                                    max_iterations=iterations)
 

@@ -21,17 +21,16 @@ import subprocess
 import sys
 import tempfile
 import time
+from collections.abc import Callable
 from pathlib import Path
-from typing import Callable
 from unittest import mock
 
 from _common import best_of, stage_sheet
-
 from kiutils.schematic import Schematic
 from kiutils.utils.sexpr import parse_sexp
 
-from schemcheck.io import sexpr
 from schemcheck.circuit.load import load_netlist
+from schemcheck.io import sexpr
 
 ROUNDS = 5
 

@@ -5,7 +5,8 @@ same comparison on ``--count`` circuits from ``--seed`` and prints how many circ
 op-amp units and sensitivities agreed, the worst relative error among sensitivities well
 above their absolute floor, the largest share of the allowed disagreement used (1 is the
 limit), every disagreement, and the time schemcheck (read + solve) and ngspice (two
-decks per batch) took on the same circuits in this process, as a ratio. ``--keep DIR`` copies each disagreeing circuit's schematic and
+decks per batch) took on the same circuits in this process, as a ratio. ``--keep DIR`` copies
+each disagreeing circuit's schematic and
 its batch's decks to DIR. Exit status 1 when any circuit disagrees.
 
 Needs ngspice on the PATH (Debian package ``ngspice``).
@@ -27,8 +28,16 @@ import _common  # noqa: F401  (puts the repository root on sys.path)
 from schemcheck.engine.dcerror import SOURCES
 from tests.draw_circuits import draw, drawn_nets
 from tests.random_circuits import circuits
-from tests.spice_deck import (BATCH, Entry, compare, engine, entries, net_problems,
-                              ngspice_version, simulate)
+from tests.spice_deck import (
+    BATCH,
+    Entry,
+    compare,
+    engine,
+    entries,
+    net_problems,
+    ngspice_version,
+    simulate,
+)
 
 
 def _show(name: str, entry: Entry) -> str:

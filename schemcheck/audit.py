@@ -8,39 +8,52 @@ from __future__ import annotations
 
 import dataclasses
 import math
+from collections.abc import Mapping
 from dataclasses import replace
-from typing import Any, Mapping
+from typing import Any
 
 import numpy as np
 
 from schemcheck import checks
 from schemcheck.assumptions import design_assumptions
-from schemcheck.engine.budget import monte_carlo_histograms, stage_budget
 from schemcheck.checks.bias_resistor import compensation_resistor
 from schemcheck.checks.context import StageContext
 from schemcheck.checks.parameters import missing_by_part
-from schemcheck.engine import split, sweep
-from schemcheck.engine.chain import driven_by
-from schemcheck.engine.histogram import Binned
-from schemcheck.engine.dcerror import solve
-from schemcheck.model import Finding, Netlist
-from schemcheck.results import (
-    AmbiguousMatch, Compensation, Contributor, DesignResult, ErrorSplit, Estimate, Histogram,
-    LibraryMatch, LibrarySource, MissingPart, NotAnalysed, ParamsUsed, PartRequirements,
-    Sensitivity, StageResult, TemperatureCurve, Upstream,
-)
 from schemcheck.circuit.values import ValueRules
-from schemcheck.engine.budget import StageBudget
+from schemcheck.engine import split, sweep
+from schemcheck.engine.budget import StageBudget, monte_carlo_histograms, stage_budget
+from schemcheck.engine.chain import driven_by
 from schemcheck.engine.coverage import Omission, excluded_sources, omissions
-from schemcheck.engine.dcerror import Solution
+from schemcheck.engine.dcerror import Solution, solve
+from schemcheck.engine.histogram import Binned
 from schemcheck.engine.montecarlo import monte_carlo_run
 from schemcheck.engine.network import Network, build_network
-from schemcheck.engine.travel import Setting, Travel, travels
 from schemcheck.engine.params import OpampParams, ParameterError, at_temperature, resolve
 from schemcheck.engine.partmatch import PartsLibrary, sources_line
-from schemcheck.settings import Settings
 from schemcheck.engine.stages import OpampUnit, SkippedAmplifier, amplifier_name, recognise
 from schemcheck.engine.topology import label
+from schemcheck.engine.travel import Setting, Travel, travels
+from schemcheck.model import Finding, Netlist
+from schemcheck.results import (
+    AmbiguousMatch,
+    Compensation,
+    Contributor,
+    DesignResult,
+    ErrorSplit,
+    Estimate,
+    Histogram,
+    LibraryMatch,
+    LibrarySource,
+    MissingPart,
+    NotAnalysed,
+    ParamsUsed,
+    PartRequirements,
+    Sensitivity,
+    StageResult,
+    TemperatureCurve,
+    Upstream,
+)
+from schemcheck.settings import Settings
 from schemcheck.units import ValueFormatError, format_si, parse_quantity
 
 #: The audit's result for one design (the name the library has always used).

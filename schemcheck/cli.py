@@ -5,7 +5,8 @@ from __future__ import annotations
 import functools
 import os
 import sys
-from typing import TYPE_CHECKING, Any, Callable
+from collections.abc import Callable
+from typing import TYPE_CHECKING, Any
 
 import click
 
@@ -186,7 +187,8 @@ def _fail_on_option(command: Callable[..., Any]) -> Callable[..., Any]:
 @_reports_errors
 def audit(paths: tuple[str, ...], fmt: str, output: str | None, temp: str | None,
           parts: str | None, budget: str | None, samples: int | None, seed: int | None,
-          mc_solve: str | None, settings_path: str | None, jobs: int | None, fail_on: str, no_cache: bool,
+          mc_solve: str | None, settings_path: str | None, jobs: int | None, fail_on: str,
+          no_cache: bool,
           cache_file: str | None, changed_since: str | None, staged: bool,
           shard: Shard | None, estimate_missing: bool, charts: bool) -> None:
     """Audit the DC output error of every op-amp stage of one or many designs.

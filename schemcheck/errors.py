@@ -34,7 +34,7 @@ class ParseError(SchemcheckError, ValueError):
         self.column = column
         self.snippet = snippet
 
-    def with_file(self, file: str) -> "ParseError":
+    def with_file(self, file: str) -> ParseError:
         """Return a copy that names ``file`` (used where the tokenizer did not know it)."""
         return ParseError(
             self.message, file=file, line=self.line, column=self.column, snippet=self.snippet

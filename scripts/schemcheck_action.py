@@ -78,7 +78,8 @@ def encode_multipart(files: list[str], base: str) -> tuple[bytes, str]:
         parts.append(
             f'--{boundary}\r\nContent-Disposition: form-data; name="files"; filename="{name}"\r\n'
             f"Content-Type: application/octet-stream\r\n\r\n".encode() + content + b"\r\n")
-    return b"".join(parts) + f"--{boundary}--\r\n".encode(), f"multipart/form-data; boundary={boundary}"
+    body = b"".join(parts) + f"--{boundary}--\r\n".encode()
+    return body, f"multipart/form-data; boundary={boundary}"
 
 
 def request(url: str, token: str | None, data: bytes | None = None,
@@ -123,12 +124,12 @@ def in_process(design: str, html: bool = False) -> tuple[dict, str, str | None]:
     try:
         from schemcheck.report.formats import render
         from schemcheck.run.batch import audit_paths, public
-    except ImportError:
+    except ImportError:  # not installed here: the command line's JSON instead
         extra = ["--charts"] if html else []
         out = subprocess.run(["schemcheck", "audit", design, "--format", "json", *extra],
                              capture_output=True, text=True)
         if out.returncode == 2 or not out.stdout:
-            raise RuntimeError(out.stderr.strip() or "schemcheck could not run")
+            raise RuntimeError(out.stderr.strip() or "schemcheck could not run") from None
         report = json.loads(out.stdout)
         md = subprocess.run(["schemcheck", "audit", design, "--format", "markdown"],
                             capture_output=True, text=True).stdout
@@ -152,7 +153,8 @@ def summary(report: dict) -> str:
             lines.append(f"  {s['ref']}/{s['unit']:<3} {s['topology']:<15} worst {shown:<10} "
                          f"{verdict}")
         for f in design["findings"]:
-            lines.append(f"  {f['severity'].upper():<7} {f['rule']}: {f['ref']} {f['message'][:90]}")
+            lines.append(f"  {f['severity'].upper():<7} {f['rule']}: {f['ref']} "
+                         f"{f['message'][:90]}")
     return "\n".join(lines[:40])
 
 

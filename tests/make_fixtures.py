@@ -115,7 +115,8 @@ def hierarchy() -> tuple[Sheet, Sheet]:
     paths = {"A": f"{base}/{a_uuid}", "B": f"{base}/{b_uuid}"}
 
     def inst(number: int, prefix: str = "R") -> list[tuple[str, str, int]]:
-        return [(paths["A"], f"{prefix}{100 + number}", 1), (paths["B"], f"{prefix}{200 + number}", 1)]
+        return [(paths["A"], f"{prefix}{100 + number}", 1),
+                (paths["B"], f"{prefix}{200 + number}", 1)]
 
     r1 = child.place("Device:R", "R101", "10k", 50.8, 50.8, angle=90, instances=inst(1))
     r2 = child.place("Device:R", "R102", "10k", 76.2, 50.8, angle=90, instances=inst(2))

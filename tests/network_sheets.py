@@ -8,7 +8,7 @@ labels unless said otherwise), supplies through power symbols.
 
 from __future__ import annotations
 
-from typing import Callable
+from collections.abc import Callable
 
 from .synth import Sheet, Symbol
 

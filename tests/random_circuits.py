@@ -12,7 +12,8 @@ stages, a loop around two op-amps, three-op-amp instrumentation amplifiers. Op-a
 single parts (supply pins drawn or hidden) or units of dual parts (a spare unit tied
 off now and then); about a third carry a finite open-loop gain (field ``Aol``).
 Resistor values use every notation the reader accepts (``4k7``, ``10k``, ``1M``,
-``100R``, ``4r7``, ``4.7kΩ``, ``470ohm``, ``4.7e3``, ``4700``, ``10k 1%``, ``4k7/0.1%``); ``0R`` jumpers and inductors are shorts,
+``100R``, ``4r7``, ``4.7kΩ``, ``470ohm``, ``4.7e3``, ``4700``, ``10k 1%``, ``4k7/0.1%``);
+``0R`` jumpers and inductors are shorts,
 capacitors and the photodiode are open at DC.
 """
 
@@ -395,7 +396,7 @@ class _Builder:
         inp = self.source() if inp is None else inp
         if name == "chain":
             out = inp
-            for step in range(self.rng.randint(2, 3)):
+            for _ in range(self.rng.randint(2, 3)):
                 out = self.family(self.rng.choice(_CHAINABLE), out)
             return out
         method = getattr(self, name.replace("-", "_"))

@@ -14,7 +14,6 @@ from __future__ import annotations
 import io
 
 import pytest
-
 from schemcheck_api.guard import allowed_hosts, host_name
 
 from .conftest import FIXTURES

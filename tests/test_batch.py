@@ -18,9 +18,9 @@ import time
 import pytest
 from click.testing import CliRunner
 
+from schemcheck.cli import main
 from schemcheck.run.batch import audit_paths, exit_status
 from schemcheck.run.cache import ResultCache
-from schemcheck.cli import main
 
 from .conftest import FIXTURES, needs_proc, session_processes, wait_session_empty
 from .make_demo import stage
@@ -67,7 +67,8 @@ def test_every_good_design_audited_and_broken_ones_reported(library):
     assert len(files) == GOOD + 3 + 1  # child.kicad_sch is not a design of its own
     assert "child.kicad_sch" not in files
     good = [d for d in report["designs"] if not d["errors"]]
-    assert len(good) == GOOD + 1 and all(len(d["stages"]) == 1 for d in good if "board" in d["file"])
+    assert len(good) == GOOD + 1
+    assert all(len(d["stages"]) == 1 for d in good if "board" in d["file"])
     bad = {os.path.basename(d["file"]): d["errors"][0] for d in report["designs"] if d["errors"]}
     assert set(bad) == {"truncated.kicad_sch", "notes.kicad_sch", "lost.kicad_sch"}
     assert "expected ')' but the file ends here" in bad["truncated.kicad_sch"]

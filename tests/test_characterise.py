@@ -103,7 +103,8 @@ def test_saturation_contradiction_and_bad_cells(tmp_path):
     assert (2, "saturated") in messages
     assert (3, "inconsistent") in messages
     assert messages[(4, "not-a-number")] == "row 4, column v2: expected a number, found 'abc'"
-    assert messages[(5, "missing-cell")] == "row 5, column gain: expected a number, found an empty cell"
+    assert messages[(5, "missing-cell")] == ("row 5, column gain: expected a number, found an "
+                                             "empty cell")
 
 
 def _temperature_rows(tcvos, doubling, noise=0.0, seed=1):

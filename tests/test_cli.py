@@ -37,7 +37,8 @@ def test_netlist_json():
 
 
 def test_netlist_text():
-    code, out, _ = run("netlist", FIXTURES / "reader" / "netlists" / "small.net", "--format", "text")
+    small = FIXTURES / "reader" / "netlists" / "small.net"
+    code, out, _ = run("netlist", small, "--format", "text")
     assert code == 0
     assert "  GND                    R1.2 U1.3\n" in out
 
@@ -95,13 +96,15 @@ def test_missing_child_sheet_reported_and_rest_read(tmp_path):
     code, out, err = run("netlist", tmp_path / "miss.kicad_sch")
     assert code == 2
     assert json.loads(out)["nets"][0] == {"name": "/A", "nodes": [{"ref": "R1", "pin": "1"}]}
-    assert "expected the child sheet file 'lost.kicad_sch' of sheet 'Lost', found no such file" in err
+    assert ("expected the child sheet file 'lost.kicad_sch' of sheet 'Lost', found no such "
+            "file") in err
 
 
 def test_no_such_file(tmp_path):
     code, _, err = run("netlist", tmp_path / "nope.kicad_sch")
     assert code == 2
-    assert err.strip().endswith("nope.kicad_sch: expected a file here, found nothing (no such file)")
+    assert err.strip().endswith("nope.kicad_sch: expected a file here, found nothing (no such "
+                                "file)")
 
 
 def test_whole_process_no_traceback(tmp_path):

@@ -60,7 +60,8 @@ def test_kicad9_hidden_and_stacked_pins():
     hidden = {q.number for q in j1.pins if q.hidden}
     assert {"A12", "B1", "B12", "A9", "B4", "B9"} <= hidden
     gnd = netlist.net_of("J1", "A1")
-    assert {("J1", pin) for pin in ("A1", "A12", "B1", "B12")} <= {(n.ref, n.pin) for n in gnd.nodes}
+    pins = {(n.ref, n.pin) for n in gnd.nodes}
+    assert {("J1", pin) for pin in ("A1", "A12", "B1", "B12")} <= pins
 
 
 @needs_corpus

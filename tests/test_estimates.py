@@ -81,7 +81,8 @@ def test_no_estimate_without_an_input_type():
                    if f["rule"] == "missing-parameters" and f["ref"] == "U8")
     assert missing["message"] == (
         "OPX-88 (1 unit: U8/1) has no Vos, Ib, Ios: the stages' sensitivities and part "
-        "requirements are reported, their error is unknown (no class estimate: its input type is unknown; give it an Input field or an "
+        "requirements are reported, their error is unknown (no class estimate: its input type "
+        "is unknown; give it an Input field or an "
         "input in the library)")
 
 

@@ -13,8 +13,14 @@ import signal
 import pytest
 
 from schemcheck.errors import ParseError, PathNotAllowedError
-from schemcheck.io.files import (confined, is_allowed, read_bytes, read_text, regular_file,
-                                 toml_position)
+from schemcheck.io.files import (
+    confined,
+    is_allowed,
+    read_bytes,
+    read_text,
+    regular_file,
+    toml_position,
+)
 
 
 @pytest.fixture

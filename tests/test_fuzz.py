@@ -14,11 +14,11 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from schemcheck.circuit.connectivity import build_netlist
-from schemcheck.errors import SchemcheckError
+from schemcheck.circuit.load import sniff
 from schemcheck.drawing import Design
+from schemcheck.errors import SchemcheckError
 from schemcheck.io.files import decode
 from schemcheck.io.kicad_sch import read_sheet
-from schemcheck.circuit.load import sniff
 from schemcheck.io.netlist import read_sexpr_netlist, read_xml_netlist
 
 from .conftest import CORPUS, FIXTURES, corpus_files, needs_corpus

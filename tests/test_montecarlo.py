@@ -32,8 +32,8 @@ from schemcheck.engine.dcerror import solve
 from schemcheck.engine.network import build_network
 from schemcheck.engine.params import resolve
 from schemcheck.engine.stages import recognise
-from schemcheck.report.json import to_data
 from schemcheck.io.partslib import load_parts_library
+from schemcheck.report.json import to_data
 from schemcheck.settings import Settings
 
 from .circuits import circuit

@@ -10,8 +10,8 @@ from __future__ import annotations
 
 import pytest
 
-from schemcheck.errors import ParseError
 from schemcheck.circuit.load import load_netlist
+from schemcheck.errors import ParseError
 
 from .conftest import FIXTURES
 
@@ -25,7 +25,8 @@ def shape(netlist):
 
 
 def test_sexpr_and_xml_agree():
-    assert shape(load_netlist(NETLISTS / "small.net")) == shape(load_netlist(NETLISTS / "small.xml"))
+    assert (shape(load_netlist(NETLISTS / "small.net"))
+            == shape(load_netlist(NETLISTS / "small.xml")))
 
 
 def test_netlist_content():

@@ -15,9 +15,8 @@ import pytest
 
 from schemcheck.audit import audit_netlist
 from schemcheck.circuit.load import load_netlist
-from schemcheck.settings import Settings
-
 from schemcheck.report.audit_text import stage_details
+from schemcheck.settings import Settings
 
 from .conftest import FIXTURES, stages_as_data
 

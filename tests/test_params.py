@@ -21,9 +21,8 @@ import pytest
 
 from schemcheck.audit import audit_netlist
 from schemcheck.engine.params import at_temperature, from_library, resolve
-from schemcheck.settings import Settings
-
 from schemcheck.report.json import to_data
+from schemcheck.settings import Settings
 
 from .circuits import circuit
 

@@ -79,7 +79,8 @@ HEAD = '# a library\n\n[parts."LX1612"]\ninput = "jfet"\n'
 
 @pytest.mark.parametrize(("text", "message"), [
     pytest.param(HEAD + 'vso = "1mV"\n',
-                 "lib.toml:5:1: entry 'LX1612', key 'vso': unknown key (expected one of aliases, aol, "
+                 "lib.toml:5:1: entry 'LX1612', key 'vso': unknown key (expected one of "
+                 "aliases, aol, "
                  "description, ib, ib_either_sign, ib_hot, input, ios, ios_hot, measured, rule, "
                  "t_hot, tcvos, vos)", id="unknown-key"),
     pytest.param(HEAD + 'vos = { min = "1mV" }\n',

@@ -11,11 +11,11 @@ import typing
 
 import pytest
 from marshmallow import fields as mm
+from schemcheck_api import schemas
 
 from schemcheck import results
 from schemcheck.model import Finding
 from schemcheck.report.json import design_from_data, dumps, json_key, to_data
-from schemcheck_api import schemas
 
 PAIRS = [
     (results.Report, schemas.ReportSchema),

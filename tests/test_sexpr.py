@@ -41,7 +41,8 @@ def test_exact_path_agrees_with_fast_path(path):
     assert sexpr._parse_exact(text, False, None) == sexpr.parse(text)
 
 
-@pytest.mark.parametrize("path", CORPUS_SCH + [p for p in FIXTURE_FILES if p.suffix == ".kicad_sch"],
+@pytest.mark.parametrize("path", CORPUS_SCH + [p for p in FIXTURE_FILES
+                                              if p.suffix == ".kicad_sch"],
                          ids=corpus_ids(CORPUS_SCH) + [p.name for p in FIXTURE_FILES
                                                          if p.suffix == ".kicad_sch"])
 def test_kiutils_objects_identical(path):
@@ -132,7 +133,8 @@ def test_locate_finds_nested_node():
     assert sexpr.locate(text, (2, 1, 1))[:2] == (3, 15)
 
 
-@pytest.mark.parametrize("path", CORPUS_SCH + [p for p in FIXTURE_FILES if p.suffix == ".kicad_sch"],
+@pytest.mark.parametrize("path", CORPUS_SCH + [p for p in FIXTURE_FILES
+                                              if p.suffix == ".kicad_sch"],
                          ids=corpus_ids(CORPUS_SCH) + [p.name for p in FIXTURE_FILES
                                                          if p.suffix == ".kicad_sch"])
 def test_dropping_cosmetic_lists_keeps_the_rest(path):

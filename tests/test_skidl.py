@@ -14,7 +14,6 @@ from schemcheck.circuit.load import load_netlist
 from .conftest import FIXTURES
 
 
-
 @pytest.fixture(scope="module")
 def skidl(tmp_path_factory):
     """skidl, imported inside a temporary folder: importing it writes log files into the

@@ -10,8 +10,8 @@ from __future__ import annotations
 import pytest
 
 from schemcheck.circuit.load import load_netlist
-from schemcheck.model import Part, Pin
 from schemcheck.engine.stages import recognise
+from schemcheck.model import Part, Pin
 
 from .conftest import CORPUS, needs_corpus
 

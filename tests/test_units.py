@@ -8,8 +8,15 @@ from __future__ import annotations
 
 import pytest
 
-from schemcheck.units import (ValueFormatError, format_si, parse_gain, parse_quantity,
-                              parse_resistance, parse_temperature_range, parse_tolerance)
+from schemcheck.units import (
+    ValueFormatError,
+    format_si,
+    parse_gain,
+    parse_quantity,
+    parse_resistance,
+    parse_temperature_range,
+    parse_tolerance,
+)
 
 
 @pytest.mark.parametrize(

@@ -14,8 +14,8 @@ import math
 
 from schemcheck.characterise.analysis import Problem, Reading
 from schemcheck.errors import ParseError
-from schemcheck.units import ValueFormatError, parse_resistance
 from schemcheck.io.files import read_text
+from schemcheck.units import ValueFormatError, parse_resistance
 
 REQUIRED = ("sample", "temp_c", "v1", "v2", "v3", "gain", "rs", "resolution")
 OPTIONAL = ("v4", "rail")
@@ -66,7 +66,7 @@ def read_bench_csv(path: str) -> tuple[list[Reading], list[Problem]]:
                                     "found an empty cell"))
             bad = True
         if not bad:
-            for column, positive in (("gain", True), ("rs", True), ("resolution", True)):
+            for column in ("gain", "rs", "resolution"):
                 if values[column] <= 0:
                     problems.append(Problem(line, sample, "not-a-number",
                                             f"row {line}, column {column}: expected a positive "

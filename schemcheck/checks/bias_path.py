@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from schemcheck.model import Finding
 from schemcheck.checks.context import StageContext
+from schemcheck.model import Finding
 
 
 def _reached_through(ctx: StageContext, net: str) -> list[str]:

@@ -6,10 +6,10 @@ upstream stage, or the drift to the worse end of the range), so the fix starts t
 
 from __future__ import annotations
 
+from schemcheck.checks.context import StageContext
 from schemcheck.engine.split import feeds, own_terms
 from schemcheck.model import Finding
 from schemcheck.units import format_si
-from schemcheck.checks.context import StageContext
 
 
 def _largest(ctx: StageContext, k: int) -> tuple[str, str, float] | None:

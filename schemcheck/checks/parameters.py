@@ -3,8 +3,8 @@
 
 from __future__ import annotations
 
-from schemcheck.model import Finding
 from schemcheck.checks.context import StageContext
+from schemcheck.model import Finding
 
 _NAMES = {"vos": "Vos", "ib": "Ib", "ios": "Ios"}
 

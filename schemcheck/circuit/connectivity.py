@@ -27,9 +27,9 @@ import re
 from bisect import bisect_left, bisect_right
 from dataclasses import dataclass, field
 
-from schemcheck.drawing import Design
-from schemcheck.drawing import LibSymbol, PlacedSymbol, Point, SheetFile, pin_point
-from schemcheck.model import Net, Netlist, Node, Part, Pin, natural_key as _natural
+from schemcheck.drawing import Design, LibSymbol, PlacedSymbol, Point, SheetFile, pin_point
+from schemcheck.model import Net, Netlist, Node, Part, Pin
+from schemcheck.model import natural_key as _natural
 
 _PRIORITY = {"power": 6, "global_label": 5, "label": 4, "hierarchical_label": 3}
 _KIND_OF_PRIORITY = {value: key for key, value in _PRIORITY.items()}

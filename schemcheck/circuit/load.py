@@ -6,9 +6,9 @@ import dataclasses
 import os
 
 from schemcheck.errors import ParseError
-from schemcheck.model import Netlist
 from schemcheck.io.files import decode, read_bytes
 from schemcheck.io.sexpr import collector_paused
+from schemcheck.model import Netlist
 
 #: What a file starts with -> its kind.
 _SIGNATURES = (("(kicad_sch", "kicad_sch"), ("(export", "kicad_net"), ("<", "kicad_xml"))

@@ -15,8 +15,8 @@ A value none of these reads is :class:`UnreadableValue`: the part is never opene
 from __future__ import annotations
 
 import re
+from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Mapping
 
 from schemcheck.errors import SchemcheckError
 from schemcheck.model import Part

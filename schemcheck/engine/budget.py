@@ -26,6 +26,7 @@ from schemcheck.engine.histogram import Binned, histogram
 from schemcheck.engine.network import Network
 from schemcheck.engine.params import AtTemperature, OpampParams, at_temperature
 
+
 @dataclass(slots=True)
 class StageBudget:
     """All figures of one stage, volts; None where they cannot be computed."""

@@ -34,16 +34,20 @@ from __future__ import annotations
 
 import re
 from collections import deque
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, field
-from typing import Callable, Iterable, Mapping
 
 from schemcheck.circuit.kinds import Kind, classify
-from schemcheck.circuit.values import PartValue, UnreadableValue, ValueRules, is_not_fitted, \
-    part_value
+from schemcheck.circuit.values import (
+    PartValue,
+    UnreadableValue,
+    ValueRules,
+    is_not_fitted,
+    part_value,
+)
 from schemcheck.engine.stages import OpampUnit, SkippedAmplifier, output_pins
 from schemcheck.model import Netlist, Part, Pin, natural_key
-from schemcheck.units import ValueFormatError, parse_resistance, parse_tolerance, \
-    read_capacitance
+from schemcheck.units import ValueFormatError, parse_resistance, parse_tolerance, read_capacitance
 
 #: Pin types that drive a net when they belong to an integrated circuit.
 _DRIVING = ("output", "power_out", "bidirectional", "tri_state")
@@ -174,13 +178,13 @@ class Network:
             self._by_net = index
         return self._by_net.get(net, [])
 
-    def with_resistors(self, resistors: list[Resistor]) -> "Network":
+    def with_resistors(self, resistors: list[Resistor]) -> Network:
         """The same network with other resistor values (a potentiometer's travel)."""
         return self.variant(resistors=resistors)
 
     def variant(self, *, resistors: list[Resistor] | None = None,
                 opamps: list[OpampNode] | None = None, fixed: dict[str, str] | None = None,
-                capacitors: list[tuple[str, str, str]] | None = None) -> "Network":
+                capacitors: list[tuple[str, str, str]] | None = None) -> Network:
         """The same network with other resistors, op-amps, fixed nets or capacitors (what
         the solver reads); everything else is shared with this one."""
         return Network(self.resistors if resistors is None else resistors,

@@ -22,8 +22,9 @@ Temperature model (``at_temperature``):
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
-from typing import Any, Mapping
+from typing import Any
 
 from schemcheck.engine.estimates import CLASS_VALUES, input_type_from_text
 from schemcheck.engine.partmatch import Ambiguity, Match, PartsLibrary, match_part

@@ -11,10 +11,10 @@ from __future__ import annotations
 
 import os
 
+from schemcheck.drawing import Design
 from schemcheck.errors import DesignError, ParseError, PathNotAllowedError
 from schemcheck.io import sexpr
 from schemcheck.io.files import is_allowed, is_confined, read_text
-from schemcheck.drawing import Design
 from schemcheck.io.kicad_sch import read_sheet
 from schemcheck.io.resolve import child_sheet, normalised
 

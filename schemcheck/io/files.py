@@ -13,9 +13,10 @@ from __future__ import annotations
 import os
 import re
 import stat
+from collections.abc import Iterable, Iterator
 from contextlib import contextmanager
 from contextvars import ContextVar
-from typing import Any, Iterable, Iterator
+from typing import Any
 
 from schemcheck.errors import ParseError, PathNotAllowedError
 

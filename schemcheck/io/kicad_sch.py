@@ -12,16 +12,23 @@ of a millimetre), so coincidence tests are exact.
 
 from __future__ import annotations
 
-import math
-from dataclasses import dataclass, field
 from typing import Any
 
-from schemcheck.errors import ParseError
 from schemcheck.drawing import (
-    SCALE, Instance, Label, LibPin, LibSymbol, PlacedSymbol, Point, SheetFile, SheetPin,
-    SheetSymbol, grid_point, pin_point,
+    Instance,
+    Label,
+    LibPin,
+    LibSymbol,
+    PlacedSymbol,
+    Point,
+    SheetFile,
+    SheetPin,
+    SheetSymbol,
+    grid_point,
 )
+from schemcheck.errors import ParseError
 from schemcheck.io import sexpr
+
 
 class _Bad(Exception):
     """Internal: a bad value at a tree path; turned into a located ParseError."""

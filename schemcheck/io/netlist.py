@@ -18,8 +18,9 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from schemcheck.errors import ParseError
-from schemcheck.model import Net, Netlist, Node, Part, Pin, natural_key as _natural
 from schemcheck.io import sexpr
+from schemcheck.model import Net, Netlist, Node, Part, Pin
+from schemcheck.model import natural_key as _natural
 
 #: Net names that are supply rails when a netlist does not say which nets came from
 #: power symbols (common practice in KiCad's power library names).

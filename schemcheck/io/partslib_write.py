@@ -10,8 +10,8 @@ from typing import Any
 import tomlkit
 
 from schemcheck.errors import ParseError
-from schemcheck.units import format_si
 from schemcheck.io.files import read_text, write_text
+from schemcheck.units import format_si
 
 
 def _value(value: float, unit: str) -> str:

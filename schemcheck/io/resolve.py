@@ -22,7 +22,7 @@ import os
 import re
 import stat
 import tomllib
-from typing import Callable
+from collections.abc import Callable
 
 #: Called with (name as written, candidate path, the sheet naming it) before a child sheet
 #: is looked at: the service refuses, unread, what lies outside what it may read.

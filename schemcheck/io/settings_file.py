@@ -29,15 +29,20 @@ import re
 from dataclasses import replace
 from typing import Any
 
-from schemcheck.rules import RULES
 from schemcheck.errors import ParseError
-from schemcheck.settings import MC_SOLVES, Settings
-from schemcheck.units import (ValueFormatError, check_temperature_range, parse_quantity,
-                              parse_resistance, parse_time, parse_tolerance,
-                              read_resistance)
-from schemcheck.io.files import (check_allowed, read_text, toml_document, toml_error,
-                                  toml_position)
+from schemcheck.io.files import check_allowed, read_text, toml_document, toml_error, toml_position
 from schemcheck.io.resolve import SETTINGS_NAME, library_path
+from schemcheck.rules import RULES
+from schemcheck.settings import MC_SOLVES, Settings
+from schemcheck.units import (
+    ValueFormatError,
+    check_temperature_range,
+    parse_quantity,
+    parse_resistance,
+    parse_time,
+    parse_tolerance,
+    read_resistance,
+)
 
 #: The largest Monte Carlo seed (numpy's generators take any whole number >= 0; 64 bits
 #: is what TOML can write).

@@ -36,24 +36,25 @@ from __future__ import annotations
 import gc
 import math
 import re
+from collections.abc import Iterator
 from contextlib import contextmanager
-from typing import Any, Iterator
+from typing import Any
 
 from schemcheck.errors import ParseError
 
 #: kiutils 1.4.8's ``term_regex``, written without verbose mode.
 _KIUTILS_TOKEN = re.compile(
-    r"""\s*(?:(\()|(\))|([+-]?\d+\.\d+(?=[ )])|-?\d+(?=[ )]))|("(?:[^"]|(?<=\\)")*"(?=[)\s]))|([^(^)\s]+))"""
+    r"""\s*(?:(\()|(\))|([+-]?\d+\.\d+(?=[ )])|-?\d+(?=[ )]))|("(?:[^"]|(?<=\\)")*"(?=[)\s]))|([^(^)\s]+))"""  # noqa: E501 - one token pattern
 )
 #: The same grammar with KiCad's own string rule (a backslash escapes the next character).
 _PROPER_TOKEN = re.compile(
-    r"""\s*(?:(\()|(\))|([+-]?\d+\.\d+(?=[ )])|-?\d+(?=[ )]))|("(?:[^"\\]|\\.)*"(?=[)\s]))|([^(^)\s]+))"""
+    r"""\s*(?:(\()|(\))|([+-]?\d+\.\d+(?=[ )])|-?\d+(?=[ )]))|("(?:[^"\\]|\\.)*"(?=[)\s]))|([^(^)\s]+))"""  # noqa: E501 - one token pattern
 )
 #: Fast path: no groups. A bare token carries one extra character when what follows it
 #: changes its reading in kiutils' grammar (``(`` or whitespace other than a space: not a
 #: number). A lone ``"`` is a quote that does not close a string: bail out.
 _FAST_TOKEN = re.compile(
-    r"""\(|\)|"[^"\\]*+(?:\\.[^"\\]*+)*+"(?=[)\s])|[^\s()"^][^\s()^]*+(?:(?=[ )])|[^\S ]|\(|\Z)|\""""
+    r"""\(|\)|"[^"\\]*+(?:\\.[^"\\]*+)*+"(?=[)\s])|[^\s()"^][^\s()^]*+(?:(?=[ )])|[^\S ]|\(|\Z)|\""""  # noqa: E501 - one token pattern
 )
 _NUMBER = re.compile(r"[+-]?\d+\.\d+|-?\d+").fullmatch
 _OPENS = object()  # marker: a bare token glued to a following '('

@@ -13,8 +13,8 @@ from __future__ import annotations
 import os
 from typing import Any
 
-from schemcheck.report import stage_lines as sl
 from schemcheck.partdata import DISPLAY
+from schemcheck.report import stage_lines as sl
 from schemcheck.units import format_si
 
 _COLUMNS = ("stage", "topology", "output", "noise gain", "R+", "R-", "own 25°C", "total 25°C",

@@ -9,8 +9,9 @@ base folder that file paths are made relative to (SARIF), and returns the text.
 from __future__ import annotations
 
 import json
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any, Callable
+from typing import Any
 
 Renderer = Callable[[dict[str, Any], str | None], str]
 

@@ -137,7 +137,8 @@ def _design(design: dict[str, Any], index: int) -> dict[str, Any]:
         "index": index,
         "file": design["file"],
         "settings": settings_line(design),
-        "findings": [{"f": f, "text": finding_text(f), "figures": finding_figures(f, by_name.get(f.get("stage") or ""))}
+        "findings": [{"f": f, "text": finding_text(f),
+                      "figures": finding_figures(f, by_name.get(f.get("stage") or ""))}
                      for f in design["findings"]],
         "stages": [_stage(s, index, span) for s in stages],
         "budget_chart": figures.budget_chart(stages, index),

@@ -14,9 +14,27 @@ from typing import Any
 
 from schemcheck.model import Finding
 from schemcheck.results import (
-    AmbiguousMatch, Compensation, Contributor, DesignResult, ErrorSplit, Estimate, Histogram,
-    LibraryMatch, LibrarySource, MissingAcross, MissingPart, NotAnalysed, ParamsUsed,
-    PartRequirements, Report, Sensitivity, Shard, StageResult, TemperatureCurve, Tool, Upstream,
+    AmbiguousMatch,
+    Compensation,
+    Contributor,
+    DesignResult,
+    ErrorSplit,
+    Estimate,
+    Histogram,
+    LibraryMatch,
+    LibrarySource,
+    MissingAcross,
+    MissingPart,
+    NotAnalysed,
+    ParamsUsed,
+    PartRequirements,
+    Report,
+    Sensitivity,
+    Shard,
+    StageResult,
+    TemperatureCurve,
+    Tool,
+    Upstream,
 )
 
 

@@ -10,7 +10,10 @@ from typing import Any
 
 from schemcheck.report import stage_lines as sl
 from schemcheck.report.audit_text import (
-    finding_text, settings_line, stage_details, temp_range,
+    finding_text,
+    settings_line,
+    stage_details,
+    temp_range,
 )
 
 _ICON = {"error": "**error**", "warning": "warning", "info": "info"}

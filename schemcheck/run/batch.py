@@ -11,9 +11,10 @@ import json
 import os
 import sys
 import traceback
+from collections.abc import Callable, Iterator
 from concurrent.futures import Future, ProcessPoolExecutor
 from dataclasses import replace
-from typing import TYPE_CHECKING, Any, Callable, Iterator
+from typing import TYPE_CHECKING, Any
 
 from schemcheck import __version__
 from schemcheck.errors import ParseError, PathNotAllowedError, SchemcheckError
@@ -256,7 +257,7 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
                                    initargs=(os.getpid(),))
         outputs = _in_workers(pool, workers, tasks)
     try:
-        for (index, design, settings, key), result in zip(todo, outputs):
+        for (index, design, _, key), result in zip(todo, outputs):
             results[index] = result
             if cache is not None and key and not result["errors"]:
                 stored = portable(result, design.root)
