@@ -179,8 +179,8 @@ def audit_netlist(netlist: Netlist, settings: Settings,
                        checks.check_bias_resistor, checks.check_bias_resistance,
                        checks.check_budget):
         findings.extend(rule_check(ctx))
-    sheet_file = {(op.unit.part.ref, op.unit.part.unit): op.unit.part.source_file
-                  for op in network.opamps}
+    sheet_file: dict[tuple[str, int | None], str] = {
+        (op.unit.part.ref, op.unit.part.unit): op.unit.part.source_file for op in network.opamps}
     sheet_file.update({(u.part.ref, u.part.unit): u.part.source_file for u, _ in omitted})
     findings = [replace(f, file=sheet_file.get((f.ref, f.unit)) or netlist.source)
                 for f in findings]
@@ -418,8 +418,8 @@ def _compensation(ctx: StageContext, k: int, r_plus: float | None,
         return Compensation(resistor.ref, resistor.ohms, ideal if ideal > 0 else None, useful,
                             minus if ideal <= 0 else None)
     added = r_minus - r_plus
-    ideal = 0.0 if abs(added) <= 1e-9 * scale else added if added > 0 else None
-    return Compensation(None, None, ideal, useful, minus if ideal is None else None)
+    to_add = 0.0 if abs(added) <= 1e-9 * scale else added if added > 0 else None
+    return Compensation(None, None, to_add, useful, minus if to_add is None else None)
 
 
 def _split(ctx: StageContext, k: int, upstream: list[Upstream]) -> ErrorSplit | None:

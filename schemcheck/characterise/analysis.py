@@ -155,7 +155,7 @@ def fit_drift(results: list[Extracted]) -> Fit:
         if len({r.temp_c for r in rows}) >= 2:
             slope, _ = np.polyfit([r.temp_c for r in rows], [r.vos for r in rows], 1)
             per_sample[sample] = float(slope)
-    residual = []
+    residual: list[float] = []
     for sample, slope in per_sample.items():
         rows = [r for r in results if r.sample == sample]
         ts = np.array([r.temp_c for r in rows])

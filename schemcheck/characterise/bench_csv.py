@@ -36,13 +36,12 @@ def read_bench_csv(path: str) -> tuple[list[Reading], list[Problem]]:
     for row in reader:
         line = reader.line_num
         sample = (row.get("sample") or "").strip()
-        values: dict[str, float | None] = {}
+        values: dict[str, float] = {}  # an optional column left empty has no entry
         bad = False
         for column in REQUIRED[1:] + OPTIONAL:
             cell = (row.get(column) or "").strip()
             if not cell:
                 if column in OPTIONAL:
-                    values[column] = None
                     continue
                 problems.append(Problem(line, sample, "missing-cell",
                                         f"row {line}, column {column}: expected a number, "
@@ -74,8 +73,8 @@ def read_bench_csv(path: str) -> tuple[list[Reading], list[Problem]]:
                     bad = True
         if not bad:
             readings.append(Reading(line, sample, values["temp_c"], values["v1"], values["v2"],
-                                    values["v3"], values["v4"], values["gain"], values["rs"],
-                                    values["resolution"], values["rail"]))
+                                    values["v3"], values.get("v4"), values["gain"], values["rs"],
+                                    values["resolution"], values.get("rail")))
     if not readings and not problems:
         raise ParseError("expected at least one row of readings after the header", file=path)
     return readings, problems

@@ -338,7 +338,8 @@ def _read(system: System, inverse: np.ndarray | None, solution: Solution) -> Non
                 if abs(value) > 1e-12:
                     solution.tainted[k] = True
                 continue
-            scale = gain if source == "vos" else gain * ohms
+            # Python floats: an overflow gives inf, without numpy's warning
+            scale = gain if source == "vos" else float(gain) * ohms
             if abs(value) > NOISE * scale:
                 solution.sensitivity[k][(j, source)] = float(value)
 

@@ -95,6 +95,14 @@ class _Network:
     mix: np.ndarray  # (rhs columns, 3 per op-amp): source values per unit draw
 
     @property
+    def inverse(self) -> np.ndarray:
+        """The nominal inverse (only a solved system is prepared)."""
+        inverse = self.system.inverse
+        if inverse is None:
+            raise ValueError(f"the network of {', '.join(self.names)} has no nominal inverse")
+        return inverse
+
+    @property
     def shape(self) -> tuple[int, int, int, int]:
         return (self.system.base.shape[0], len(self.tol), self.mix.shape[1], len(self.outputs))
 
@@ -389,7 +397,7 @@ class _Model:
         self.full = full
         count, size = full.base.shape[0], full.base.shape[1]
         inverse = np.zeros((count, size + 1, size + 1))  # row/column `size`: fixed nets (0)
-        inverse[:, :size, :size] = np.stack([n.system.inverse for n in members])
+        inverse[:, :size, :size] = np.stack([n.inverse for n in members])
         x0 = np.zeros((count, size + 1, full.rhs.shape[2]))
         x0[:, :size] = inverse[:, :size, :size] @ full.rhs
         a = np.where(full.res_a >= 0, full.res_a, size)  # (G, n_res)

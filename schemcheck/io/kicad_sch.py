@@ -233,7 +233,7 @@ def _lib_pin(pin: list[Any], path: tuple[int, ...], unit: int, body: int) -> Lib
                 hidden = _yes(sub)
         elif sub == "hide":  # KiCad 6 to 8: bare flag
             hidden = True
-    if x is None:
+    if x is None or y is None:  # set together by '(at X Y A)'
         raise _Bad(path, "expected '(at X Y A)' in '(pin ...)'")
     return LibPin(number, name, etype, x, y, unit, body, hidden)
 
@@ -272,7 +272,7 @@ def _placed_symbol(item: list[Any], path: tuple[int, ...]) -> PlacedSymbol:
             uuid = _text(sub, 1, where, "the uuid")
         elif head == "instances":
             _instances(sub, where, instances)
-    if x is None:
+    if x is None or y is None or angle is None:  # set together by '(at X Y A)'
         raise _Bad(path, "expected '(at X Y A)' in a placed '(symbol ...)'")
     if not lib_id:
         raise _Bad(path, "expected '(lib_id \"Library:Name\")' in a placed '(symbol ...)'")

@@ -169,8 +169,8 @@ def read_sexpr_netlist(text: str, file: str) -> Netlist:
         for pin in _children(_child(lp, "pins") or ["pins"], "pin"):
             pins.append(Pin(_value(_child(pin, "num")), _value(_child(pin, "name")),
                             _value(_child(pin, "type"), "passive")))
-        key = (_value(_child(lp, "lib")), _value(_child(lp, "part")))
-        libparts[key] = _LibPart(pins, _value(_child(lp, "description")))
+        part_key = (_value(_child(lp, "lib")), _value(_child(lp, "part")))
+        libparts[part_key] = _LibPart(pins, _value(_child(lp, "description")))
     nets = []
     for net in _children(_child(tree, "nets") or ["nets"], "net"):
         nodes = [(_value(_child(n, "ref")), _value(_child(n, "pin")))

@@ -24,7 +24,7 @@ from __future__ import annotations
 
 import os
 import re
-from typing import Any
+from typing import Any, TypedDict
 
 from schemcheck.errors import ParseError
 from schemcheck.io.files import read_text, toml_document
@@ -145,7 +145,14 @@ def _header_pattern(entry_name: str) -> re.Pattern[str]:
                       + quoted + r')\s*\]')
 
 
-def _where(text: str, entry_name: str | None, key: str | None) -> dict[str, int | None]:
+class _Where(TypedDict):
+    """The ``line`` and ``column`` keywords of a :class:`ParseError`."""
+
+    line: int | None
+    column: int | None
+
+
+def _where(text: str, entry_name: str | None, key: str | None) -> _Where:
     """``line`` and ``column`` (1-based) of ``key`` in entry ``entry_name``, for an error."""
     line = _key_line(text, entry_name, key)
     if line is None:

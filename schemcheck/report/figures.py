@@ -14,9 +14,12 @@ from __future__ import annotations
 import io
 import re
 import threading
-from typing import Any
+from typing import TYPE_CHECKING, Any, cast
 
 from schemcheck.report import stage_lines as sl
+
+if TYPE_CHECKING:
+    from matplotlib.artist import Artist
 
 Stage = dict[str, Any]
 
@@ -29,7 +32,10 @@ SOURCE_LABELS = {"vos": "Vos", "ib": "Ib", "ios": "Ios", "drift": "drift over te
 INK = "#1F2933"
 GRID = "#D9DEE3"
 
-_STYLE = {
+#: matplotlib settings for every figure. Its stubs type ``rc_context``'s argument as a dict
+#: keyed by the literal setting names, which a ``dict[str, Any]`` never matches (dict is
+#: invariant): hence the cast where it is passed.
+_STYLE: dict[str, Any] = {
     "svg.fonttype": "none",
     "svg.hashsalt": "schemcheck",
     "font.family": "sans-serif",
@@ -145,7 +151,7 @@ def budget_chart(stages: list[Stage], design: int) -> str:
         import matplotlib as mpl
         from matplotlib.patches import Patch, Rectangle
 
-        with mpl.rc_context(_STYLE):
+        with mpl.rc_context(cast("dict[Any, Any]", _STYLE)):
             rows = len(stages)
             height = 0.6 * rows + 0.7
             fig = _figure(10.2, height)
@@ -202,7 +208,7 @@ def budget_chart(stages: list[Stage], design: int) -> str:
                 ax.text(1.02, 0.5, f"{text}\n{mark}", transform=ax.transAxes, va="center",
                         fontsize=8, color=_verdict_colour(s),
                         fontweight="bold" if mark == "FAIL" else "normal")
-            handles = [Patch(color=c, label=label) for label, c in used.items()]
+            handles: list[Artist] = [Patch(color=c, label=label) for label, c in used.items()]
             handles.append(Patch(facecolor="none", edgecolor="none", label=""))
             from matplotlib.lines import Line2D
 
@@ -229,7 +235,7 @@ def temperature_curve(s: Stage, design: int) -> str:
     with _LOCK:
         import matplotlib as mpl
 
-        with mpl.rc_context(_STYLE):
+        with mpl.rc_context(cast("dict[Any, Any]", _STYLE)):
             fig = _figure(4.6, 3.1)
             ax = fig.add_axes((0.14, 0.15, 0.83, 0.64))
             ax.plot(temps, worst, color=COLOURS["worst"], linewidth=2.0, label="worst case",
@@ -275,7 +281,7 @@ def mc_histogram(s: Stage, design: int) -> str:
     with _LOCK:
         import matplotlib as mpl
 
-        with mpl.rc_context(_STYLE):
+        with mpl.rc_context(cast("dict[Any, Any]", _STYLE)):
             fig = _figure(4.6, 3.1)
             ax = fig.add_axes((0.14, 0.15, 0.83, 0.64))
             ax.stairs(counts, edges, fill=True, color=COLOURS["hist"], linewidth=0,
@@ -403,7 +409,7 @@ def chain_view(stages: list[Stage], design: int) -> str:
         from matplotlib.patches import FancyArrowPatch, FancyBboxPatch
         from matplotlib.path import Path
 
-        with mpl.rc_context(_STYLE):
+        with mpl.rc_context(cast("dict[Any, Any]", _STYLE)):
             fig = _figure(width, height)
             ax = fig.add_axes((0, 0, 1, 1))
             ax.set_xlim(0, width)

@@ -119,7 +119,7 @@ def _type_problem(hint: Any, value: Any, trail: str) -> tuple[str, str] | None:
             return None
         problems = [_type_problem(h, value, trail) for h in options if h is not type(None)]
         return None if any(p is None for p in problems) else problems[0]
-    if dataclasses.is_dataclass(hint):
+    if isinstance(hint, type) and dataclasses.is_dataclass(hint):
         return check_data(hint, value, trail)
     if origin is list:
         if not isinstance(value, list):

@@ -269,8 +269,8 @@ def audit_paths(paths: list[str], *, base: Settings | None = None,
     finally:
         if pool is not None:
             pool.shutdown(cancel_futures=True)  # nothing left to run after an error
-    for error in missing:
-        results.append(_unreadable(error.file or "", str(error), error=error))
+    for absent in missing:
+        results.append(_unreadable(absent.file or "", str(absent), error=absent))
     shown = [_shown(r) for r in results if r is not None]
     # What depends on the designs only: a run answered from the cache reports the same.
     report = to_data(Report(Tool("schemcheck", __version__), stats={"designs": len(shown)},
