@@ -101,9 +101,9 @@ def reason(result, ref: str, unit: int) -> str:
 
 
 @needs_corpus
-def test_scopetrex_video_driven_by_a_port_pin(library):
+def test_scopetrex_display_input_driven_by_a_port_pin(library):
     result = audit(SCOPETREX, library)
-    # U306 unit 3: VIDEO is driven by the VIA's CB2 port pin (bidirectional) through
+    # U306 unit 3: its display input net is driven by the VIA's CB2 port pin (bidirectional) through
     # R315 2.2K: 1 + R353 / (R351 + R315) = 1 + 4.7k / (4.7k + 2.2k) = 1.681.
     u306 = stage(result, "U306", 3)
     assert u306["noise_gain"] == pytest.approx(1 + 4.7e3 / 6.9e3, rel=0.015)
