@@ -329,7 +329,7 @@ def _read(system: System, inverse: np.ndarray | None, solution: Solution) -> Non
     rows = list(system.out_rows.values())
     x = inverse[rows] @ system.rhs
     conductances = [g for g in system.conductance if g > 0]
-    ohms = max(1.0, 1.0 / min(conductances)) if conductances else 1.0
+    ohms = float(max(1.0, 1.0 / min(conductances))) if conductances else 1.0
     for k, values in zip(system.out_rows, x):
         gain = max([1.0] + [abs(v) for (_, source), v in zip(system.columns, values)
                             if source == "vos"])
