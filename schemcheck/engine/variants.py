@@ -151,6 +151,9 @@ class WhatIf:
         for j in range(len(self.network.opamps)):
             if j == k or self.solution.status[j] != "ok":
                 continue
+            if (after.status[j] == "ok" and after.tainted[j] == self.solution.tainted[j]
+                    and after.sensitivity[j] == self.solution.sensitivity[j]):
+                continue  # not reached by the change (another piece of the network)
             before_j = self.before(j)
             if before_j is None:
                 continue
