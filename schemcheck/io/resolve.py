@@ -114,7 +114,9 @@ def settings_file(root: str, given: str | None = None) -> str | None:
     if given:
         return given
     candidate = os.path.join(os.path.dirname(os.path.abspath(root)), SETTINGS_NAME)
-    return candidate if os.path.isfile(candidate) else None
+    # anything there but a folder: reading it says what it is when it is not a regular
+    # file (reading also refuses, unread, what lies outside a confined run)
+    return candidate if os.path.exists(candidate) and not os.path.isdir(candidate) else None
 
 
 def library_path(settings_path: str, name: str) -> str:

@@ -24,14 +24,13 @@ Unknown keys are an error that names the key. Command-line options override the 
 from __future__ import annotations
 
 import math
-import os
 import re
 from dataclasses import replace
 from typing import Any
 
 from schemcheck.errors import ParseError
-from schemcheck.io.files import check_allowed, read_text, toml_document, toml_error, toml_position
-from schemcheck.io.resolve import SETTINGS_NAME, library_path
+from schemcheck.io.files import read_text, toml_document, toml_error, toml_position
+from schemcheck.io.resolve import library_path
 from schemcheck.rules import RULES
 from schemcheck.settings import MC_SOLVES, Settings
 from schemcheck.units import (
@@ -60,14 +59,6 @@ def _finite_number(value: Any) -> bool:
         return math.isfinite(float(value))
     except OverflowError:
         return False
-
-
-def find_settings(design_root: str) -> str | None:
-    """The settings file beside ``design_root``, if there is one (anything by that name
-    that is not a folder: reading it says what it is when it is not a regular file)."""
-    candidate = os.path.join(os.path.dirname(os.path.abspath(design_root)), SETTINGS_NAME)
-    check_allowed(candidate, "settings file")  # a link out of the confinement is refused
-    return candidate if os.path.exists(candidate) and not os.path.isdir(candidate) else None
 
 
 def load_settings(path: str, base: Settings | None = None) -> Settings:

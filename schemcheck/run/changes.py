@@ -87,7 +87,7 @@ def design_inputs(design: DesignRef, settings: Settings | None,
                   settings_path: str | None = None) -> set[str]:
     """Every file (real path) whose change changes the audit of ``design``, existing or
     not: sheets, referenced sheets, settings files, the parts library, the project file."""
-    from schemcheck.io.settings_file import SETTINGS_NAME
+    from schemcheck.io.resolve import SETTINGS_NAME
 
     files = set(design.files)
     for sheet in design.files:
