@@ -45,7 +45,7 @@ from schemcheck.circuit.values import (
     is_not_fitted,
     part_value,
 )
-from schemcheck.engine.stages import OpampUnit, SkippedAmplifier, output_pins
+from schemcheck.engine.stages import OpampUnit, SkippedAmplifier, amplifier_name, output_pins
 from schemcheck.model import Netlist, Part, Pin, natural_key
 from schemcheck.units import ValueFormatError, parse_resistance, parse_tolerance, read_capacitance
 
@@ -574,7 +574,7 @@ def _place_parts(b: _Builder, netlist: Netlist, units: list[OpampUnit],
             continue
         amplifier = skipped_parts.get((part.ref, part.unit))
         if amplifier is not None:
-            name = part.ref if part.unit_count == 1 else f"{part.ref} unit {part.unit}"
+            name = amplifier_name(part)  # the reports' identifier (U6/3)
             _stamp_amplifier(b, part, name, amplifier.reason, [p.number for p in part.pins],
                              [p.number for p in output_pins(part)],
                              current_output=bool(_CURRENT_PART.search(amplifier.reason)))
@@ -638,8 +638,7 @@ def _comparators_wired_as_opamps(b: _Builder, netlist: Netlist,
             promoted.append(unit)
             key = (unit.part.ref, unit.part.unit)
             b.open_parts.pop(key[0], None)
-            name = unit.part.ref if unit.part.unit_count == 1 else \
-                f"{unit.part.ref} unit {unit.part.unit}"
+            name = amplifier_name(unit.part)
             b.may_conduct.pop(name, None)
             b.kinds.pop(name, None)
             for net, driver in list(b.drivers.items()):
