@@ -51,7 +51,7 @@ def one_stage() -> None:
     system = solution.systems[0]
     # the same stacked matrices, built once outside the timing of the baseline
     rng = np.random.default_rng(1)
-    tol = np.array([network.resistors[i].tolerance for i in system.component.resistors])
+    tol = np.array([r.tolerance for r in system.component.resistors])
     g = system.conductance / (1.0 + rng.uniform(-1, 1, (SAMPLES, len(tol))) * tol)
     a = np.stack([system.matrix(row) for row in g[:2000]] * (SAMPLES // 2000))
     b = rng.normal(size=(SAMPLES, system.rhs.shape[1])) @ system.rhs.T

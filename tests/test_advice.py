@@ -179,3 +179,72 @@ def test_compensation_names_the_minus_side_where_the_plus_input_sees_more():
     assert dict(stage_details(stage, None))["compensation"] == (
         "the + input sees more: 82 kΩ in the feedback path would balance the inputs "
         "(E96 82.5 kΩ) for matched (bipolar) inputs")
+
+
+def _whole_and_piece(network, solution, change, k):
+    """The changed network solved whole, and as the advice solves it (the piece)."""
+    from schemcheck.engine.dcerror import solve
+    from schemcheck.engine.params import OpampParams
+    from schemcheck.engine.variants import WhatIf, apply
+
+    changed = apply(network, change)
+    whatif = WhatIf(network, solution, [OpampParams()] * len(network.opamps), (0.0, 70.0))
+    outcome = whatif.attempt(k, change)
+    return (None if changed is None else solve(changed)), outcome
+
+
+def _systems(solution):
+    return sorted((tuple(s.component.opamps), tuple(r.ref for r in s.component.resistors),
+                   tuple(s.columns), tuple(s.out_rows.items())) for s in solution.systems)
+
+
+def test_the_piece_a_change_reaches_solves_as_the_whole_network_does(tmp_path):
+    # The advice solves only the piece of the network a change reaches; the reference is
+    # the changed network solved whole (schemcheck.engine.dcerror.solve, itself checked
+    # against sympy in tests/test_dcerror.py). Every status, sensitivity and system must be
+    # the same, for every kind of change on every part, over the engine's circuits and
+    # seeded random circuits of every family.
+    from schemcheck.circuit.load import load_netlist
+    from schemcheck.engine.dcerror import solve
+    from schemcheck.engine.network import build_network
+    from schemcheck.engine.stages import recognise
+    from schemcheck.engine.variants import Change
+
+    from .draw_circuits import draw
+    from .random_circuits import circuits
+
+    netlists = []
+    for rc in circuits(24, base_seed=11):
+        path = tmp_path / f"{rc.name}.kicad_sch"
+        path.write_text(draw(rc).text(), encoding="utf-8")
+        netlists.append(load_netlist(path))
+    netlists.append(circuit("J1 IN GND", "J2 IN2 GND", "R1 IN m1 10k", "R2 m1 o1 100k",
+                            "U1 p=GND m=m1 out=o1", "R3 IN2 m2 10k", "R4 m2 o2 100k",
+                            "U2 p=GND m=m2 out=o2", "R5 m1 m2 1M", "R6 o2 p3 10k",
+                            "R7 p3 GND 10k", "U3 p=p3 m=o3 out=o3", "R8 x GND 1k"))
+    compared = 0
+    for netlist in netlists:
+        units, skipped = recognise(netlist.parts)
+        network = build_network(netlist, units, skipped)
+        solution = solve(network)
+        changes = []
+        for r in network.resistors:
+            changes += [Change("value", r.ref, r.ohms * 3.3), Change("remove", r.ref),
+                        Change("wire", r.ref)]
+        for k in range(len(network.opamps)):
+            changes += [Change("series", "Radd", 4.7e3, k, "+"),
+                        Change("series", "Radd", 4.7e3, k, "-")]
+        for change in changes:
+            k = change.opamp if change.kind == "series" else 0
+            whole, outcome = _whole_and_piece(network, solution, change, k)
+            assert (whole is None) == (outcome is None), change
+            if whole is None:
+                continue
+            got = outcome.solution
+            assert got.status == whole.status, change
+            assert got.tainted == whole.tainted, change
+            assert got.floating_inputs == whole.floating_inputs, change
+            assert got.sensitivity == whole.sensitivity, change
+            assert _systems(got) == _systems(whole), change
+            compared += 1
+    assert compared > 500

@@ -146,7 +146,7 @@ def prepared(lines):
 def test_single_samples_match_nodal_analysis(name):
     spec = CIRCUITS[name]
     network, net, full, model = prepared(engine_lines(spec, "5%"))
-    refs = [network.resistors[i].ref for i in net.system.component.resistors]
+    refs = [r.ref for r in net.system.component.resistors]
     assert len(refs) == len(net.tol)  # every resistor varies in these circuits
     names = [op.unit.part.ref for op in network.opamps]
     rng = np.random.default_rng(5)

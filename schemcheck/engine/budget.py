@@ -168,10 +168,10 @@ def _group_errors(network: Network, solution: Solution, params: list[OpampParams
     ios_max: list[float] = []  # per op-amp of the group, at its system's temperature
     for g, system in enumerate(systems):
         rhs[g, :, :len(system.columns)] = system.rhs
-        for r, ((i, j), cond, index) in enumerate(zip(system.stamps, system.conductance,
-                                                      system.component.resistors)):
+        for r, ((i, j), cond, part) in enumerate(zip(system.stamps, system.conductance,
+                                                     system.component.resistors)):
             nominal[g, r] = cond
-            tolerance[g, r] = network.resistors[index].tolerance
+            tolerance[g, r] = part.tolerance
             for a, b, sign in ((i, i, 1.0), (j, j, 1.0), (i, j, -1.0), (j, i, -1.0)):
                 if a >= 0 and b >= 0:
                     stamps[g, r, a, b] += sign

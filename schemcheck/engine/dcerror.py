@@ -21,11 +21,11 @@ on it is marked ``tainted`` (its totals unknown, never a made-up number).
 from __future__ import annotations
 
 from collections import deque
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from schemcheck.engine.network import Network
+from schemcheck.engine.network import Network, Resistor
 
 SOURCES = ("vos", "ib_plus", "ib_minus")
 #: A sensitivity below this share of its row's scale (the largest Vos gain, times the
@@ -44,7 +44,7 @@ class Component:
 
     nets: list[str]
     opamps: list[int]  # indices into Network.opamps (analysed ones)
-    resistors: list[int]  # indices into Network.resistors
+    resistors: list[Resistor]  # in the network's order
 
 
 @dataclass(slots=True)
@@ -98,6 +98,14 @@ class Solution:
     systems: list[System] = field(default_factory=list)
     #: what was not analysed and why, for the report
     notes: list[str] = field(default_factory=list)
+    _system_index: dict[int, int] | None = None
+
+    def system_of(self, k: int) -> int | None:
+        """The index in :attr:`systems` of the one op-amp k is solved in, or None."""
+        if self._system_index is None:
+            self._system_index = {j: i for i, system in enumerate(self.systems)
+                                  for j in system.component.opamps}
+        return self._system_index.get(k)
 
     def own(self, k: int) -> dict[str, float] | None:
         """Sensitivities of op-amp k's output to its own sources (V/V, V/A)."""
@@ -187,10 +195,10 @@ def _components(network: Network, active: set[str]) -> list[Component]:
             if net in parent:
                 groups[find(net)].opamps.append(k)
                 break
-    for i, r in enumerate(network.resistors):
+    for r in network.resistors:
         for net in (r.a, r.b):
             if net in parent:
-                groups[find(net)].resistors.append(i)
+                groups[find(net)].resistors.append(r)
                 break
     return [c for c in groups.values() if c.opamps]
 
@@ -244,8 +252,7 @@ def build_system(network: Network, component: Component, status: list[str]) -> S
                 rhs[rows[net], col[(k, source)]] = -1.0  # current flows into the pin
     stamps = []
     conductance = []
-    for i in component.resistors:
-        r = network.resistors[i]
+    for r in component.resistors:
         stamps.append((rows.get(r.a, -1), rows.get(r.b, -1)))
         conductance.append(1.0 / r.ohms)
     return System(component, base, stamps, np.array(conductance), rhs, columns, out_rows, rows)
@@ -293,28 +300,115 @@ def solve(network: Network) -> Solution:
     return solution
 
 
+@dataclass(frozen=True, slots=True)
+class Piece:
+    """The part of a network joined to some nets through resistors and op-amps (not
+    through fixed nets): all that a change of a part on those nets can alter. Indices into
+    the network's lists, in order; ``fixed`` the fixed nets at its edge."""
+
+    opamps: list[int]
+    resistors: list[int]
+    fixed: dict[str, str]
+
+    def network(self, network: Network) -> Network:
+        """The piece alone, its op-amps numbered in the order of :attr:`opamps`."""
+        return network.variant(resistors=[network.resistors[i] for i in self.resistors],
+                               opamps=[network.opamps[k] for k in self.opamps],
+                               fixed=self.fixed)
+
+
+def piece(network: Network, nets: list[str], opamps: list[int] | None = None) -> Piece:
+    """The piece of ``network`` holding ``nets`` and the op-amps ``opamps`` (see
+    :class:`Piece`). Every connected part
+    :func:`solve` takes apart lies wholly inside it or wholly outside, with everything its
+    statuses depend on (bias paths, DC feedback), so solving the piece alone gives its
+    op-amps the figures a solve of the whole network gives them."""
+    lookup = network.lookup()
+    fixed = network.fixed
+    held: set[int] = set(opamps or ())
+    resistors: set[int] = set()
+    edge: dict[str, str] = {}
+    start = [*nets]
+    for k in held:
+        op = network.opamps[k]
+        start += (op.plus, op.minus, op.out)
+    seen = set(start)
+    queue = deque(start)
+    while queue:
+        net = queue.popleft()
+        if net in fixed:
+            edge[net] = fixed[net]
+            continue  # a fixed net joins nothing
+        reached: list[str] = []
+        for i in lookup.resistors.get(net, ()):
+            if i not in resistors:
+                resistors.add(i)
+                r = network.resistors[i]
+                reached += (r.a, r.b)
+        for k in lookup.pins.get(net, ()):
+            if k not in held:
+                held.add(k)
+                op = network.opamps[k]
+                reached += (op.plus, op.minus, op.out)
+        for nxt in reached:
+            if nxt not in seen:
+                seen.add(nxt)
+                queue.append(nxt)
+    return Piece(sorted(held), sorted(resistors), edge)
+
+
+def splice(before: Solution, opamps: list[int], part: Solution) -> Solution:
+    """``before`` with the op-amps ``opamps`` solved anew: ``part`` is the solution of the
+    piece they make up (:class:`Piece`, op-amp i of it is ``opamps[i]``), the rest as
+    before. The notes are ``before``'s with the part's new ones."""
+    status = list(before.status)
+    sensitivity = list(before.sensitivity)
+    tainted = list(before.tainted)
+    floating = list(before.floating_inputs)
+    for i, k in enumerate(opamps):
+        status[k] = part.status[i]
+        sensitivity[k] = {(opamps[j], source): value
+                          for (j, source), value in part.sensitivity[i].items()}
+        tainted[k] = part.tainted[i]
+        floating[k] = part.floating_inputs[i]
+    systems = list(before.systems)
+    held = {before.system_of(k) for k in opamps}
+    for i in sorted((i for i in held if i is not None), reverse=True):
+        del systems[i]
+    systems += [_renumbered(s, opamps) for s in part.systems]
+    notes = [*before.notes, *(n for n in part.notes if n not in before.notes)]
+    return Solution(status, sensitivity, tainted, floating, systems, notes)
+
+
+def _renumbered(system: System, opamps: list[int]) -> System:
+    component = system.component
+    return replace(system,
+                   component=Component(component.nets, [opamps[j] for j in component.opamps],
+                                       component.resistors),
+                   columns=[(opamps[j], source) for j, source in system.columns],
+                   out_rows={opamps[j]: row for j, row in system.out_rows.items()})
+
+
 def _inverses(matrices: list[np.ndarray]) -> list[np.ndarray | None]:
     """The inverse of each same-size matrix (one stacked LAPACK call); None where it is
     singular or its condition number (1-norm) exceeds MAX_CONDITION."""
-    stack = np.stack(matrices)
+    stack = np.stack(matrices) if len(matrices) > 1 else matrices[0][None]
     try:
-        inverses = list(np.linalg.inv(stack))
+        inverses = np.linalg.inv(stack)
     except np.linalg.LinAlgError:  # one is singular: find which, one by one
-        inverses = []
+        found = []
         for a in matrices:
             try:
-                inverses.append(np.linalg.inv(a))
+                found.append(np.linalg.inv(a))
             except np.linalg.LinAlgError:
-                inverses.append(None)
-    out: list[np.ndarray | None] = []
-    for a, inverse in zip(matrices, inverses):
-        if inverse is not None:
-            with np.errstate(over="ignore"):  # an infinite condition number is refused below
-                condition = np.abs(a).sum(axis=0).max() * np.abs(inverse).sum(axis=0).max()
-            if not np.isfinite(condition) or condition > MAX_CONDITION:
-                inverse = None
-        out.append(inverse)
-    return out
+                found.append(np.full(a.shape, np.inf))
+        inverses = np.stack(found)
+    # an infinite condition number (a singular matrix, an overflow) is refused below
+    with np.errstate(over="ignore", invalid="ignore"):
+        condition = (np.abs(stack).sum(axis=1).max(axis=1)
+                     * np.abs(inverses).sum(axis=1).max(axis=1))
+    trusted = np.isfinite(condition) & (condition <= MAX_CONDITION)
+    return [inverse if ok else None for inverse, ok in zip(inverses, trusted.tolist())]
 
 
 def _read(system: System, inverse: np.ndarray | None, solution: Solution) -> None:

@@ -128,10 +128,11 @@ def _prepare(network: Network, solution: Solution, params: list[OpampParams], sy
             sign = 1.0 if source == "ib_plus" else -1.0
             mix[c, z + 1] = (p.ib or 0.0) / TRUNCATE_SIGMA
             mix[c, z + 2] = sign * (p.ios or 0.0) / TRUNCATE_SIGMA / 2.0
-    varied = [r for r, ((a, b), index) in enumerate(zip(system.stamps, system.component.resistors))
-              if network.resistors[index].tolerance > 0.0 and (a >= 0 or b >= 0)]
+    parts = system.component.resistors
+    varied = [r for r, ((a, b), part) in enumerate(zip(system.stamps, parts))
+              if part.tolerance > 0.0 and (a >= 0 or b >= 0)]
     ends = np.array([system.stamps[r] for r in varied], dtype=int).reshape(-1, 2)
-    tolerance = [network.resistors[system.component.resistors[r]].tolerance for r in varied]
+    tolerance = [parts[r].tolerance for r in varied]
     return _Network(system, list(system.out_rows),
                     [_name(network, k) for k in system.out_rows], ends[:, 0], ends[:, 1],
                     system.conductance[varied], np.array(tolerance), mix)

@@ -127,6 +127,50 @@ class Unreadable:
 
 
 @dataclass(slots=True)
+class NetLookup:
+    """A network's parts by net, for walks over it."""
+
+    #: net -> the op-amps with an input on it: (index, output net)
+    inputs: dict[str, list[tuple[int, str]]]
+    #: op-amp output net -> its op-amp's index (the last, where outputs are tied)
+    outputs: dict[str, int]
+    #: net -> the nets one capacitor away
+    capacitors: dict[str, list[str]]
+    #: net -> the net sets of the parts that may conduct touching it
+    conducting: dict[str, list[set[str]]]
+    #: net -> the resistors with a terminal on it (indices, in order)
+    resistors: dict[str, list[int]]
+    #: net -> the op-amps with a pin (input or output) on it (indices, in order)
+    pins: dict[str, list[int]]
+
+    @staticmethod
+    def of(network: Network) -> NetLookup:
+        inputs: dict[str, list[tuple[int, str]]] = {}
+        for j, o in enumerate(network.opamps):
+            for pin in dict.fromkeys((o.plus, o.minus)):
+                inputs.setdefault(pin, []).append((j, o.out))
+        capacitors: dict[str, list[str]] = {}
+        for _, a, b in network.capacitors:
+            if a != b:
+                capacitors.setdefault(a, []).append(b)
+                capacitors.setdefault(b, []).append(a)
+        conducting: dict[str, list[set[str]]] = {}
+        for nets in network.may_conduct.values():
+            for net in nets:
+                conducting.setdefault(net, []).append(nets)
+        resistors: dict[str, list[int]] = {}
+        for i, r in enumerate(network.resistors):
+            for net in dict.fromkeys((r.a, r.b)):
+                resistors.setdefault(net, []).append(i)
+        pins: dict[str, list[int]] = {}
+        for j, o in enumerate(network.opamps):
+            for net in dict.fromkeys((o.plus, o.minus, o.out)):
+                pins.setdefault(net, []).append(j)
+        return NetLookup(inputs, {o.out: j for j, o in enumerate(network.opamps)},
+                         capacitors, conducting, resistors, pins)
+
+
+@dataclass(slots=True)
 class Network:
     """What the solver needs, with net names already merged through shorts."""
 
@@ -163,6 +207,13 @@ class Network:
     floating_spares: list[tuple[OpampUnit, list[str]]] = field(default_factory=list)
 
     _by_net: dict[str, list[Resistor]] | None = None
+    _lookup: NetLookup | None = None
+
+    def lookup(self) -> NetLookup:
+        """What touches each net, other than resistors (indexed on first use)."""
+        if self._lookup is None:
+            self._lookup = NetLookup.of(self)
+        return self._lookup
 
     def net(self, name: str) -> str:
         return self.canonical.get(name, name)
@@ -804,17 +855,26 @@ class _Loops:
             for net in inputs:
                 merge.union(out, net)
         self.group = merge.find
+        #: the op-amps (in order) of each connected piece, by the piece's representative
+        self.members: dict[str, list[int]] = {}
+        #: per net: the op-amps it is an output or an input of, and where it leads through
+        #: them (an output to the inputs, an input to the output)
+        self.across: dict[str, list[tuple[int, tuple[str, ...]]]] = {}
+        for k, (out, inputs) in enumerate(ends):
+            self.members.setdefault(merge.find(out), []).append(k)
+            self.across.setdefault(out, []).append((k, tuple(inputs)))
+            for net in inputs - {out}:
+                self.across.setdefault(net, []).append((k, (out,)))
 
     def through(self, net: str, ignore: str = "") -> str:
         """The first op-amp (by name; not ``ignore``) with ``net`` on a path between its
         output and its inputs, or ""."""
-        for k, (out, inputs) in enumerate(self.ends):
+        for k in self.members.get(self.group(net), ()):
+            out, inputs = self.ends[k]
             if self.names[k] == ignore:
                 continue
             if net == out:
                 return self.names[k]
-            if self.group(net) != self.group(out):
-                continue
             if net in inputs:
                 if out in self._reach(net, k, inputs, maybe=True):
                     return self.names[k]
@@ -826,13 +886,9 @@ class _Loops:
         yield from self.adjacency.get(net, ())
         if maybe:
             yield from self.open_as_drawn.get(net, ())
-        for j, (out, inputs) in enumerate(self.ends):
-            if j == k:
-                continue
-            if net == out:
-                yield from inputs
-            elif net in inputs:
-                yield out
+        for j, leads in self.across.get(net, ()):
+            if j != k:
+                yield from leads
 
     def _reach(self, start: str, k: int, stops: set[str], maybe: bool = False) -> set[str]:
         """Nets reached from ``start``, not passing rails or through ``stops`` (with

@@ -52,12 +52,13 @@ class _View:
         self.k = k
         self.op = network.opamps[k]
         self.fixed = network.fixed
-        self.outputs = {o.out: j for j, o in enumerate(network.opamps)}
-        self.caps: dict[str, list[str]] = {}
-        for _, a, b in network.capacitors:
-            if a != b:
-                self.caps.setdefault(a, []).append(b)
-                self.caps.setdefault(b, []).append(a)
+        self.lookup = network.lookup()
+        self.outputs = self.lookup.outputs
+        self.caps = self.lookup.capacitors
+
+    def through(self, net: str) -> list[str]:
+        """The outputs of the other op-amps with an input on ``net``."""
+        return [out for j, out in self.lookup.inputs.get(net, ()) if j != self.k]
 
     def rail(self, net: str) -> bool:
         return self.fixed.get(net) == "rail"
@@ -101,17 +102,7 @@ class _View:
         op-amps from input to output, parts that may conduct), not through fixed nets or
         ``avoid``; without ``others``, not through another op-amp's output either (a
         source)."""
-        through: dict[str, set[str]] = {}
-        if others:
-            for j, o in enumerate(self.network.opamps):
-                if j != self.k:
-                    for pin in (o.plus, o.minus):
-                        through.setdefault(pin, set()).add(o.out)
-        hubs: dict[str, list[set[str]]] = {}
-        if unmodelled:
-            for nets in self.network.may_conduct.values():
-                for net in nets:
-                    hubs.setdefault(net, []).append(nets)
+        hubs = self.lookup.conducting if unmodelled else {}
         seen = {start}
         queue = deque([start])
         while queue:
@@ -119,7 +110,8 @@ class _View:
             steps = list(self.resistors(net))
             if capacitors:
                 steps += self.caps.get(net, [])
-            steps += through.get(net, set())
+            if others:
+                steps += self.through(net)
             for nets in hubs.get(net, []):
                 steps += list(nets)
             for nxt in steps:
@@ -186,11 +178,6 @@ def _composite(v: _View) -> bool:
     pass the - input itself before reaching it). Another op-amp's output is a source: a
     path leaves it only where it came through that op-amp."""
     op = v.op
-    through: dict[str, set[str]] = {}
-    for j, o in enumerate(v.network.opamps):
-        if j != v.k:
-            for pin in (o.plus, o.minus):
-                through.setdefault(pin, set()).add(o.out)
     # states: (net, passed another op-amp, came through an op-amp onto its output)
     start = (op.out, False, True)
     seen = {start}
@@ -200,7 +187,7 @@ def _composite(v: _View) -> bool:
         if net in v.outputs and not driven:
             continue  # reached another op-amp's output through a resistor: a source
         steps = [(n, passed, False) for n in v.resistors(net)]
-        steps += [(n, True, True) for n in through.get(net, ())]
+        steps += [(n, True, True) for n in v.through(net)]
         for nxt, flag, came in steps:
             if nxt == op.minus:
                 if flag:

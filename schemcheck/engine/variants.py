@@ -13,7 +13,7 @@ import math
 from dataclasses import dataclass, replace
 
 from schemcheck.engine.budget import stage_budget, total_at
-from schemcheck.engine.dcerror import Solution, solve
+from schemcheck.engine.dcerror import Piece, Solution, piece, solve, splice
 from schemcheck.engine.network import Network, Resistor
 from schemcheck.engine.params import OpampParams
 
@@ -110,12 +110,11 @@ def worst_case(solution: Solution, k: int, params: list[OpampParams],
 
 @dataclass(frozen=True, slots=True)
 class Outcome:
-    """A change solved: stage k's noise gain and worst case after it (volts), and the
-    other stages whose worst case it raises: index -> (before, after) in volts (after None
-    where the stage loses its defined output)."""
+    """A change solved: the changed network's solution, stage k's noise gain and worst case
+    after it (volts), and the other stages whose worst case it raises: index -> (before,
+    after) in volts (after None where the stage loses its defined output)."""
 
     change: Change
-    network: Network
     solution: Solution
     noise_gain: float | None
     worst_case_v: float | None
@@ -123,7 +122,11 @@ class Outcome:
 
 
 class WhatIf:
-    """Changes tried on one solved network; the unchanged worst cases are kept."""
+    """Changes tried on one solved network; the unchanged worst cases are kept.
+
+    Only the piece of the network a change reaches is solved again (:func:`piece`): the
+    other op-amps' figures cannot move, so a change costs the size of its piece, not of
+    the sheet."""
 
     def __init__(self, network: Network, solution: Solution, params: list[OpampParams],
                  temp_range: tuple[float, float]) -> None:
@@ -132,6 +135,9 @@ class WhatIf:
         self.params = params
         self.temp_range = temp_range
         self._before: dict[int, float | None] = {}
+        self._refs: dict[str, list[int]] = {}
+        for i, r in enumerate(network.resistors):
+            self._refs.setdefault(r.ref, []).append(i)
 
     def before(self, k: int) -> float | None:
         """Stage k's worst case as drawn (volts; see :func:`worst_case`)."""
@@ -139,38 +145,47 @@ class WhatIf:
             self._before[k] = worst_case(self.solution, k, self.params, self.temp_range)
         return self._before[k]
 
+    def _piece(self, change: Change) -> Piece | None:
+        """The piece of the network ``change`` reaches; None where it names no one part."""
+        if change.kind == "series":
+            if not 0 <= change.opamp < len(self.network.opamps):
+                return None
+            return piece(self.network, [], [change.opamp])
+        found = self._refs.get(change.ref, [])
+        if len(found) != 1:
+            return None
+        r = self.network.resistors[found[0]]
+        return piece(self.network, [r.a, r.b])
+
     def attempt(self, k: int, change: Change) -> Outcome | None:
         """Solve the network with ``change`` made and measure stage k and every other
-        solved stage again; None where the change cannot be made."""
-        changed = apply(self.network, change)
+        solved stage it reaches again; None where the change cannot be made."""
+        found = self._piece(change)
+        if found is None:
+            return None
+        local = change
+        if change.kind == "series":
+            local = replace(change, opamp=found.opamps.index(change.opamp))
+        changed = apply(found.network(self.network), local)
         if changed is None:
             return None
-        after = solve(changed)
+        after = splice(self.solution, found.opamps, solve(changed))
         own = after.own(k)
         raised: dict[int, tuple[float, float | None]] = {}
-        for j in range(len(self.network.opamps)):
+        for j in found.opamps:
             if j == k or self.solution.status[j] != "ok":
                 continue
             if (after.status[j] == "ok" and after.tainted[j] == self.solution.tainted[j]
                     and after.sensitivity[j] == self.solution.sensitivity[j]):
-                continue  # not reached by the change (another piece of the network)
+                continue  # not reached by the change
             before_j = self.before(j)
             if before_j is None:
                 continue
             after_j = worst_case(after, j, self.params, self.temp_range)
             if after_j is None or after_j > before_j:
                 raised[j] = (before_j, after_j)
-        return Outcome(change, changed, after, own["vos"] if own else None,
+        return Outcome(change, after, own["vos"] if own else None,
                        worst_case(after, k, self.params, self.temp_range), raised)
-
-
-def only_dc_path(network: Network, k: int, ref: str) -> bool:
-    """True where resistor ``ref`` is the only DC path of an input of op-amp k: without it
-    the input floats (its bias return)."""
-    changed = apply(network, Change("remove", ref))
-    if changed is None:
-        return False
-    return solve(changed).status[k] == "no-bias-path"
 
 
 def thermal_noise(ohms: float, temp_c: float) -> float:
