@@ -153,7 +153,7 @@ def test_single_samples_match_nodal_analysis(name):
     for _ in range(3):
         relative = rng.uniform(-0.05, 0.05, len(refs)).astype(np.float32)
         draws = rng.uniform(-3.0, 3.0, net.mix.shape[1]).astype(np.float32)
-        update = model.outputs(slice(0, 1), relative[None, :, None], draws[None, :, None],
+        update = model.outputs(slice(0, 1), relative[None, :, None], draws[:, None],
                                mc.MAX_ITERATIONS)[0, :, 0]
         whole = full.solve(np.array([0]), relative[None, :], draws[None, :])[0]
         # the sample's circuit: conductance g0 (1 + relative) -> R0 / (1 + relative)
@@ -345,3 +345,21 @@ def test_solve_is_chosen_by_settings_file_and_option(tmp_path):
     error = audit_paths([str(tmp_path)], jobs=1)["designs"][0]["errors"][0]
     assert error == (f"{settings}:1:1: key 'monte_carlo_solve': expected \"update\" or \"full\", "
                      "found 'exact'")
+
+
+def test_a_stage_bound_does_not_move_when_other_stages_are_added():
+    # The draws come from the seed and the network's shape alone: an inverting stage's
+    # bound is the same alone, beside a stage of another shape, and beside a copy of
+    # itself (which gets the same bound: identical stages, identical answers).
+    part = "Vos=1mV Ib=80nA Ios=10nA Input=bipolar"
+    stage = ["R1 IN m 10k Tolerance=1%", "R2 m out 100k Tolerance=1%",
+             "R3 p GND 9.1k Tolerance=1%", f"U1 p=p m=m out=out {part}", "J1 IN GND"]
+    other = ["R11 IN2 p2 47k Tolerance=5%", "R12 m2 GND 1k Tolerance=5%",
+             "R13 m2 o2 22k Tolerance=5%", f"U2 p=p2 m=m2 out=o2 {part}", "J2 IN2 GND"]
+    twin = ["R21 IN m3 10k Tolerance=1%", "R22 m3 o3 100k Tolerance=1%",
+            "R23 p3 GND 9.1k Tolerance=1%", f"U3 p=p3 m=m3 out=o3 {part}"]
+    alone = bounds(stage, "update", 5000)
+    assert alone[0] is not None
+    assert bounds(stage + other, "update", 5000)[0] == alone[0]
+    both = bounds(stage + twin, "update", 5000)
+    assert both == [alone[0], alone[0]]

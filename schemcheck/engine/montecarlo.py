@@ -32,7 +32,11 @@ How each sample's network is solved (``solve``):
 
 Draws: each is one of 65536 equally likely levels (16 random bits): a resistor's value
 is at the middle of one of 65536 equal steps across its tolerance band, a parameter at
-the quantile of the middle of one of 65536 equal steps of probability (a table).
+the quantile of the middle of one of 65536 equal steps of probability (a table). The
+draws come from the seed and the network's shape (unknowns, resistors, sources, outputs)
+alone: networks of one shape share them, so a stage's bound does not move when another
+stage is added to the design, two identical stages get the same bound, and the products
+of a block of networks with the draws are one matrix product each.
 
 Bounded resources: samples are drawn and solved in chunks of about ``CHUNK_VALUES``
 numbers, and the percentile keeps only the upper tail it needs, so memory does not grow
@@ -187,8 +191,8 @@ def monte_carlo_run(network: Network, solution: Solution, params: list[OpampPara
     groups: dict[tuple[int, int, int, int], list[_Network]] = {}
     for net in nets:
         groups.setdefault(net.shape, []).append(net)
-    for number, (shape, members) in enumerate(sorted(groups.items())):
-        _run_group(solution, params, members, shape, used, seed, number, solve, run,
+    for shape, members in sorted(groups.items()):
+        _run_group(solution, params, members, shape, used, seed, solve, run,
                    chunk_values, max_iterations)
     return run
 
@@ -204,7 +208,7 @@ def _tail_size(samples: int) -> int:
 
 
 def _run_group(solution: Solution, params: list[OpampParams], members: list[_Network],
-               shape: tuple[int, int, int, int], samples: int, seed: int, number: int,
+               shape: tuple[int, int, int, int], samples: int, seed: int,
                solve: str, run: MonteCarloRun, chunk_values: int, max_iterations: int) -> None:
     """Same-shape networks, in blocks that fill a chunk; samples last in every array, so
     each per-network product is a long contiguous numpy loop."""
@@ -223,38 +227,51 @@ def _run_group(solution: Solution, params: list[OpampParams], members: list[_Net
         segment = members[offset:offset + per_segment]
         full = _Full(segment)
         model = _Model(segment, full) if solve == "update" else None
-        # resistor r: R = R0 x, x uniform in [1 - tol, 1 + tol] (the middles of _LEVELS
-        # equal steps); its conductance changes by the factor 1/x
-        step = (2.0 * full.tol / _LEVELS).astype(np.float32)[:, :, None]
-        low = (1.0 - full.tol).astype(np.float32)[:, :, None] + step / 2
-        for first in range(0, len(segment), per_block):
-            block = slice(first, min(len(segment), first + per_block))
-            count = block.stop - block.start
-            rng = np.random.default_rng(np.random.SeedSequence(
-                seed, spawn_key=(number, offset + first)))
-            tail = _UpperTail(keep, per_chunk)
-            undefined = np.zeros((count, n_out), dtype=bool)
-            for start in range(0, samples, per_chunk):
-                n = min(per_chunk, samples - start)
-                levels = _uniform_levels(rng, (count, n_res + n_z, n))
-                relative = levels[:, :n_res].astype(np.float32)
-                relative *= step[block]
-                relative += low[block]
-                np.reciprocal(relative, out=relative)
-                relative -= 1.0
-                draws = quantiles[levels[:, n_res:]]
+        blocks = [slice(first, min(len(segment), first + per_block))
+                  for first in range(0, len(segment), per_block)]
+        tails = [_UpperTail(keep, per_chunk) for _ in blocks]
+        undefined = [np.zeros((b.stop - b.start, n_out), dtype=bool) for b in blocks]
+        # the draws depend on the seed and the networks' shape alone: every network of
+        # the shape sees the same ones, whatever else the design holds
+        rng = np.random.default_rng(np.random.SeedSequence(seed, spawn_key=shape))
+        for start in range(0, samples, per_chunk):
+            n = min(per_chunk, samples - start)
+            levels = _uniform_levels(rng, (n_res + n_z, n))
+            # resistor r: R = R0 (1 + tol v), v at the middle of one of _LEVELS equal steps
+            # across [-1, 1]; its conductance changes by 1 / (1 + tol v) - 1
+            position = levels[:n_res].astype(np.float32)
+            position *= np.float32(2.0 / _LEVELS)
+            position += np.float32(1.0 / _LEVELS - 1.0)
+            draws = quantiles[levels[n_res:]]  # (n_z, n)
+            for block, tail, bad in zip(blocks, tails, undefined):
+                relative = _relative(full.tol[block], position)
                 if model is not None:
                     errors = model.outputs(block, relative, draws, max_iterations)
                 else:
                     errors = full.outputs(block, relative, draws)
                 np.abs(errors, out=errors)
                 if not np.isfinite(errors).all():  # a singular sample, or overflow
-                    undefined |= ~np.isfinite(errors).all(axis=2)
+                    bad |= ~np.isfinite(errors).all(axis=2)
+                count = block.stop - block.start
                 tail.add(errors.reshape(count * n_out, n))
-            bounds = tail.percentile().reshape(count, n_out)
-            bounds[undefined] = np.nan
+                tail.shrink()  # every block's tail is held at once: only what it needs
+        for block, tail, bad in zip(blocks, tails, undefined):
+            bounds = tail.percentile().reshape(block.stop - block.start, n_out)
+            bounds[bad] = np.nan
             for g, net in enumerate(segment[block]):
                 _record(solution, params, net, bounds[g], samples, run)
+
+
+def _relative(tol: np.ndarray, position: np.ndarray) -> np.ndarray:
+    """The conductance changes (G, n_res, n), float32, of resistors of tolerances ``tol``
+    (G, n_res) at the positions ``position`` (n_res, n) across their bands; one row (1,
+    n_res, n) for all where the tolerances are the same in every network."""
+    if len(tol) > 1 and not (tol == tol[0]).all():
+        t = tol.astype(np.float32)[:, :, None] * position
+    else:
+        t = tol[:1].astype(np.float32)[:, :, None] * position
+    # 1 / (1 + t) - 1 = -t / (1 + t), without the rounding of the subtraction
+    return -t / (1.0 + t)
 
 
 def _record(solution: Solution, params: list[OpampParams], net: _Network, bounds: np.ndarray,
@@ -336,11 +353,14 @@ class _Full:
 
     def outputs(self, block: slice, relative: np.ndarray, draws: np.ndarray) -> np.ndarray:
         """Output errors (G, n_out, n), volts, of the networks ``block`` (relative:
-        (G, n_res, n) conductance changes; draws: (G, n_z, n) truncated unit normals)."""
+        (G, n_res, n) conductance changes, or one row for all; draws: (n_z, n) truncated
+        unit normals, the same for every network)."""
         n = relative.shape[2]
-        out = np.empty((relative.shape[0], self.out_rows.shape[1], n))
+        count = block.stop - block.start
+        relative = np.broadcast_to(relative, (count, *relative.shape[1:]))
+        out = np.empty((count, self.out_rows.shape[1], n))
         for i, network in enumerate(range(block.start, block.stop)):
-            out[i] = self.solve(np.full(n, network), relative[i].T, draws[i].T).T
+            out[i] = self.solve(np.full(n, network), relative[i].T, draws.T).T
         return out
 
     def solve(self, g: np.ndarray, relative: np.ndarray, draws: np.ndarray) -> np.ndarray:
@@ -422,13 +442,17 @@ class _Model:
     def outputs(self, block: slice, relative: np.ndarray, draws: np.ndarray,
                 max_iterations: int) -> np.ndarray:
         """Output errors (G, n_out, n), volts, of the networks ``block`` (relative:
-        (G, n_res, n) conductance changes; draws: (G, n_z, n) truncated unit normals)."""
-        errors = self.nominal[block] @ draws
+        (G, n_res, n) conductance changes, or one row for all; draws: (n_z, n) truncated
+        unit normals, the same for every network): one product for the whole block."""
+        count = block.stop - block.start
+        n = draws.shape[1]
+        nominal = self.nominal[block]
+        errors = (nominal.reshape(-1, nominal.shape[2]) @ draws).reshape(count, -1, n)
         if relative.shape[1] == 0:
             return errors
         coupling = self.coupling[block]
-        q = self.across[block] @ draws  # (G, n_res, n)
-        count = q.shape[0]
+        across = self.across[block]
+        q = (across.reshape(-1, across.shape[2]) @ draws).reshape(count, -1, n)  # (G, n_res, n)
         scale = np.abs(q).reshape(count, -1).max(axis=1) + 1e-30
         u = q
         product = np.empty_like(q)
@@ -458,8 +482,9 @@ class _Model:
             moving = ~(change <= CONVERGED * scale[:, None, None]) & ~done[:, None, None]
             g, s = np.nonzero(moving.any(axis=1))
             if g.size:
-                errors[g, :, s] = self.full.solve(g + block.start, relative[g, :, s],
-                                                  draws[g, :, s])
+                every = np.broadcast_to(relative, product.shape)
+                errors[g, :, s] = self.full.solve(g + block.start, every[g, :, s],
+                                                  draws[:, s].T)
         return errors
 
 
@@ -484,6 +509,14 @@ class _UpperTail:
         self.parts.append(values)
         self.held += n
         self.seen += n
+
+    def shrink(self) -> None:
+        """Drop every value the percentile cannot need."""
+        if self.held > self.keep:
+            held = np.concatenate(self.parts, axis=1) if len(self.parts) > 1 else self.parts[0]
+            drop = self.held - self.keep
+            self.parts = [np.partition(held, drop, axis=1)[:, drop:]]
+            self.held = self.keep
 
     def percentile(self) -> np.ndarray:
         h = (self.seen - 1) * MC_PERCENTILE / 100.0
