@@ -7,6 +7,7 @@ caller does the I/O.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import math
 from collections.abc import Mapping
 from dataclasses import replace
@@ -60,22 +61,35 @@ from schemcheck.units import ValueFormatError, format_si, parse_quantity
 DesignAudit = DesignResult
 
 
+@functools.cache
+def _field_names(cls: type) -> tuple[str, ...]:
+    return tuple(spec.name for spec in dataclasses.fields(cls))
+
+
+_LEAVES = (str, int, bool, type(None))
+
+
 def _non_finite(value: Any, where: str, found: list[str]) -> None:
     """Name in ``found`` every figure of ``value`` (a results object) that is not finite:
     JSON has no NaN or Infinity, and such a figure means nothing (it is written as null)."""
     if isinstance(value, float):
         if not math.isfinite(value):
             found.append(where)
-    elif dataclasses.is_dataclass(value) and not isinstance(value, type):
-        for spec in dataclasses.fields(value):
-            _non_finite(getattr(value, spec.name), f"{where}.{spec.name}" if where
-                        else spec.name, found)
+        return
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        items: Any = ((name, getattr(value, name)) for name in _field_names(type(value)))
+        path = "{where}.{key}" if where else "{key}"
     elif isinstance(value, dict):
-        for key, item in value.items():
-            _non_finite(item, f"{where}.{key}", found)
+        items, path = value.items(), "{where}.{key}"
     elif isinstance(value, list):
-        for i, item in enumerate(value):
-            _non_finite(item, f"{where}[{i}]", found)
+        items, path = enumerate(value), "{where}[{key}]"
+    else:
+        return
+    for key, item in items:
+        kind = type(item)
+        if kind in _LEAVES or (kind is float and math.isfinite(item)):
+            continue  # most of a result: nothing to look into
+        _non_finite(item, path.format(where=where, key=key), found)
 
 
 def _budget_limit(netlist_part, settings: Settings, problems: list[str]) -> float | None:

@@ -723,13 +723,14 @@ def _fix_nets(b: _Builder, netlist: Netlist, units: list[OpampUnit],
     rails = set(fixed)
     ends: list[tuple[str, set[str]]] = []  # per op-amp: output, inputs
     named: list[OpampUnit] = []
-    for unit in [*units, *left_out]:
+    analysed = 0  # the first ends are the analysed units'
+    for i, unit in enumerate([*units, *left_out]):
         nets = [b.pin_net.get((unit.part.ref, pin.number))
                 for pin in (unit.plus, unit.minus, unit.out)]
         if nets[2] is not None:
             ends.append((canon(nets[2]), {canon(n) for n in nets[:2] if n}))
             named.append(unit)
-    analysed = len([u for u in named if u in units])
+            analysed += i < len(units)
     outputs = {out for out, _ in ends[:analysed]}
     inputs = set().union(*(ins for _, ins in ends[:analysed])) if ends else set()
     loops = _Loops(b, named, ends, rails, canon)

@@ -43,19 +43,41 @@ def json_key(spec: dataclasses.Field) -> str:
     return spec.metadata.get("key", spec.name)
 
 
+_PLANS: dict[type, tuple[tuple[str, str, bool], ...]] = {}
+
+
+def _plan(cls: type) -> tuple[tuple[str, str, bool], ...]:
+    """A model class's fields as (attribute, JSON key, left out when None)."""
+    plan = _PLANS.get(cls)
+    if plan is None:
+        plan = _PLANS[cls] = tuple((f.name, json_key(f), bool(f.metadata.get("omit_when_none")))
+                                   for f in dataclasses.fields(cls))
+    return plan
+
+
+_PLAIN = (str, int, bool, type(None))
+
+
 def to_data(value: Any) -> Any:
     """``value`` (a results object, or lists/dicts of them) as plain JSON data."""
-    if dataclasses.is_dataclass(value) and not isinstance(value, type):
-        return {json_key(f): to_data(getattr(value, f.name)) for f in dataclasses.fields(value)
-                if not (f.metadata.get("omit_when_none") and getattr(value, f.name) is None)}
-    if isinstance(value, float):
+    kind = type(value)
+    if kind in _PLAIN:
+        return value
+    if kind is float or isinstance(value, float):
         if not math.isfinite(value):
             return None
         return value + 0.0  # -0.0 -> 0.0
+    if kind is list or kind is tuple or isinstance(value, (list, tuple)):
+        return [to_data(v) for v in value]
     if isinstance(value, dict):
         return {str(k): to_data(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [to_data(v) for v in value]
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        out = {}
+        for name, key, omit in _plan(kind):
+            item = getattr(value, name)
+            if not (omit and item is None):
+                out[key] = to_data(item)
+        return out
     return value
 
 
