@@ -59,13 +59,19 @@ class _OptionError(SchemcheckError):
 def _json(data: Any) -> str:
     """Indented for a person at a terminal; compact (and several times faster, via the C
     encoder) when piped to a program."""
-    import json
-
     from schemcheck.report.json import to_data
+
+    return _plain_json(to_data(data))
+
+
+def _plain_json(data: Any) -> str:
+    """``data`` already plain JSON data (strings, numbers, lists, dicts), as :func:`_json`
+    writes it."""
+    import json
 
     indent = 2 if sys.stdout.isatty() else None
     # strict JSON: a NaN or Infinity would be a bug of ours, never written as a number
-    return json.dumps(to_data(data), indent=indent, ensure_ascii=False, allow_nan=False)
+    return json.dumps(data, indent=indent, ensure_ascii=False, allow_nan=False)
 
 
 def _emit(text: str) -> None:
@@ -101,7 +107,7 @@ def netlist(path: str, fmt: str) -> None:
 
     result = load_netlist(path)
     if fmt == "json":
-        _emit(_json(result.to_dict()))
+        _emit(_plain_json(result.to_dict()))  # plain data already: no model to convert
     else:
         from schemcheck.report.netlist_text import netlist_text
 
