@@ -182,15 +182,20 @@ def test_compensation_names_the_minus_side_where_the_plus_input_sees_more():
 
 
 def _whole_and_piece(network, solution, change, k):
-    """The changed network solved whole, and as the advice solves it (the piece)."""
+    """The changed network solved whole, and as the advice solves it (the piece); stage
+    k's worst case from the whole solution is checked against the piece's."""
     from schemcheck.engine.dcerror import solve
-    from schemcheck.engine.params import OpampParams
-    from schemcheck.engine.variants import WhatIf, apply
+    from schemcheck.engine.params import resolve
+    from schemcheck.engine.variants import WhatIf, apply, worst_case
 
+    params = [resolve(op.unit.part, {}) for op in network.opamps]
     changed = apply(network, change)
-    whatif = WhatIf(network, solution, [OpampParams()] * len(network.opamps), (0.0, 70.0))
-    outcome = whatif.attempt(k, change)
-    return (None if changed is None else solve(changed)), outcome
+    whatif = WhatIf(network, solution, params, (0.0, 70.0))
+    outcome = whatif.attempt(k, change) if k >= 0 else None
+    whole = None if changed is None else solve(changed)
+    if whole is not None and outcome is not None:
+        assert outcome.worst_case_v == worst_case(whole, k, params, (0.0, 70.0)), change
+    return whole, outcome
 
 
 def _systems(solution):
@@ -205,7 +210,7 @@ def test_the_piece_a_change_reaches_solves_as_the_whole_network_does(tmp_path):
     # the same, for every kind of change on every part, over the engine's circuits and
     # seeded random circuits of every family.
     from schemcheck.circuit.load import load_netlist
-    from schemcheck.engine.dcerror import solve
+    from schemcheck.engine.dcerror import piece, solve
     from schemcheck.engine.network import build_network
     from schemcheck.engine.stages import recognise
     from schemcheck.engine.variants import Change
@@ -222,7 +227,7 @@ def test_the_piece_a_change_reaches_solves_as_the_whole_network_does(tmp_path):
                             "U1 p=GND m=m1 out=o1", "R3 IN2 m2 10k", "R4 m2 o2 100k",
                             "U2 p=GND m=m2 out=o2", "R5 m1 m2 1M", "R6 o2 p3 10k",
                             "R7 p3 GND 10k", "U3 p=p3 m=o3 out=o3", "R8 x GND 1k"))
-    compared = 0
+    compared = measured = 0
     for netlist in netlists:
         units, skipped = recognise(netlist.parts)
         network = build_network(netlist, units, skipped)
@@ -235,16 +240,27 @@ def test_the_piece_a_change_reaches_solves_as_the_whole_network_does(tmp_path):
             changes += [Change("series", "Radd", 4.7e3, k, "+"),
                         Change("series", "Radd", 4.7e3, k, "-")]
         for change in changes:
-            k = change.opamp if change.kind == "series" else 0
+            if change.kind == "series":
+                k = change.opamp
+            else:
+                r = next(r for r in network.resistors if r.ref == change.ref)
+                reached = piece(network, [r.a, r.b]).opamps
+                k = reached[0] if reached else -1
             whole, outcome = _whole_and_piece(network, solution, change, k)
+            if k < 0:  # reaches no op-amp: nothing to solve, and nothing moves
+                assert outcome is None
+                assert whole is None or (whole.status, whole.sensitivity) == (
+                    solution.status, solution.sensitivity), change
+                continue
             assert (whole is None) == (outcome is None), change
             if whole is None:
                 continue
-            got = outcome.solution
+            got = outcome.solution(solution)
             assert got.status == whole.status, change
             assert got.tainted == whole.tainted, change
             assert got.floating_inputs == whole.floating_inputs, change
             assert got.sensitivity == whole.sensitivity, change
             assert _systems(got) == _systems(whole), change
             compared += 1
-    assert compared > 500
+            measured += outcome.worst_case_v is not None
+    assert compared > 500 and measured > 300

@@ -114,7 +114,7 @@ class _Stage:
                 ) -> _Candidate | None:
         outcome = self.whatif.attempt(self.k, change)
         if (outcome is None or outcome.worst_case_v is None or outcome.noise_gain is None
-                or outcome.solution.status[self.k] != "ok"):
+                or outcome.status != "ok"):
             return None
         if abs(outcome.noise_gain - self.s_vos) > SAME_GAIN * abs(self.s_vos):
             return None  # it would change what the stage does

@@ -81,10 +81,31 @@ def stage_budget(solution: Solution, k: int, params: list[OpampParams],
         budget.contributors.append({"opamp": j, "worst_case_v": sum(terms)})
     budget.worst_case_total_v = sum(total)
     budget.rss_v = math.sqrt(sum(t * t for t in total))
-    budget.worst_case_over_temp_v, budget.worst_temp_c = max(
-        ((total_at(solution, k, params, temp, high, sources), temp)
-         for temp in sorted({low, high}, reverse=True)), key=lambda pair: pair[0])
+    budget.worst_case_over_temp_v, budget.worst_temp_c = _over_range(
+        solution, k, params, temp_range, sources)
     return budget
+
+
+def worst_over_range(solution: Solution, k: int, params: list[OpampParams],
+                     temp_range: tuple[float, float]) -> float | None:
+    """:attr:`StageBudget.worst_case_over_temp_v` of op-amp k alone (volts): None where
+    k is not solved, an undefined output reaches it, or an op-amp reaching it has no
+    figures."""
+    if solution.status[k] != "ok" or solution.tainted[k]:
+        return None
+    sources = reaching(solution, k)
+    if not all(params[j].complete for j in sources):
+        return None
+    return _over_range(solution, k, params, temp_range, sources)[0]
+
+
+def _over_range(solution: Solution, k: int, params: list[OpampParams],
+                temp_range: tuple[float, float], sources: list[int]) -> tuple[float, float]:
+    """The worst-case total at op-amp k's output at the worse end of the range, and that
+    end (the top where both are equal)."""
+    low, high = temp_range
+    return max(((total_at(solution, k, params, temp, high, sources), temp)
+                for temp in sorted({low, high}, reverse=True)), key=lambda pair: pair[0])
 
 
 def total_at(solution: Solution, k: int, params: list[OpampParams], temp: float,

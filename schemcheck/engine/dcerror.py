@@ -20,6 +20,7 @@ on it is marked ``tainted`` (its totals unknown, never a made-up number).
 
 from __future__ import annotations
 
+import math
 from collections import deque
 from dataclasses import dataclass, field, replace
 
@@ -392,7 +393,9 @@ def _renumbered(system: System, opamps: list[int]) -> System:
 def _inverses(matrices: list[np.ndarray]) -> list[np.ndarray | None]:
     """The inverse of each same-size matrix (one stacked LAPACK call); None where it is
     singular or its condition number (1-norm) exceeds MAX_CONDITION."""
-    stack = np.stack(matrices) if len(matrices) > 1 else matrices[0][None]
+    if len(matrices) == 1:  # the piece of a suggested change: no stacking to pay for
+        return [_inverse(matrices[0])]
+    stack = np.stack(matrices)
     try:
         inverses = np.linalg.inv(stack)
     except np.linalg.LinAlgError:  # one is singular: find which, one by one
@@ -411,6 +414,17 @@ def _inverses(matrices: list[np.ndarray]) -> list[np.ndarray | None]:
     return [inverse if ok else None for inverse, ok in zip(inverses, trusted.tolist())]
 
 
+def _inverse(a: np.ndarray) -> np.ndarray | None:
+    """:func:`_inverses` of one matrix."""
+    try:
+        inverse = np.linalg.inv(a)
+    except np.linalg.LinAlgError:
+        return None
+    with np.errstate(over="ignore", invalid="ignore"):  # inf or nan is refused below
+        condition = float(np.abs(a).sum(axis=0).max()) * float(np.abs(inverse).sum(axis=0).max())
+    return inverse if math.isfinite(condition) and condition <= MAX_CONDITION else None
+
+
 def _read(system: System, inverse: np.ndarray | None, solution: Solution) -> None:
     """The sensitivities of ``system``'s outputs from its nominal inverse."""
     status = solution.status
@@ -421,9 +435,9 @@ def _read(system: System, inverse: np.ndarray | None, solution: Solution) -> Non
         return
     system.inverse = inverse
     rows = list(system.out_rows.values())
-    x = inverse[rows] @ system.rhs
-    conductances = [g for g in system.conductance if g > 0]
-    ohms = float(max(1.0, 1.0 / min(conductances))) if conductances else 1.0
+    x = (inverse[rows] @ system.rhs).tolist()  # Python floats from here on
+    conductances = [g for g in system.conductance.tolist() if g > 0]
+    ohms = max(1.0, 1.0 / min(conductances)) if conductances else 1.0
     for k, values in zip(system.out_rows, x):
         gain = max([1.0] + [abs(v) for (_, source), v in zip(system.columns, values)
                             if source == "vos"])
@@ -433,9 +447,9 @@ def _read(system: System, inverse: np.ndarray | None, solution: Solution) -> Non
                     solution.tainted[k] = True
                 continue
             # Python floats: an overflow gives inf, without numpy's warning
-            scale = gain if source == "vos" else float(gain) * ohms
+            scale = gain if source == "vos" else gain * ohms
             if abs(value) > NOISE * scale:
-                solution.sensitivity[k][(j, source)] = float(value)
+                solution.sensitivity[k][(j, source)] = value
 
 
 def _too_large(network: Network, component: Component, unknowns: int,

@@ -1052,15 +1052,18 @@ def _place_opamps(netlist: Netlist, pin_net: dict[tuple[str, str], str],
         return net not in labelled and net not in fixed and loads.get(net, 0) <= own
 
     idle = {key for key, nets in placed.items() if nowhere(key, nets[2])}
+    by_ref: dict[str, list[OpampUnit]] = {}
+    for unit in everyone:
+        by_ref.setdefault(unit.part.ref, []).append(unit)
+    left_out_refs = {other.part.ref for other in left_out}
     for unit in everyone:
         ref, key = unit.part.ref, unit.key
         plus, minus, out = placed[key]
         floating = [f"pin {pin.number} ({sign})" for pin, net, sign in
                     zip((unit.plus, unit.minus), (plus, minus), ("+", "-"))
                     if nowhere(key, net) and net != out]
-        siblings = any(other.part.ref == ref and other.key != key and other.key not in idle
-                       for other in everyone) or any(other.part.ref == ref
-                                                     for other in left_out)
+        siblings = any(other.key != key and other.key not in idle
+                       for other in by_ref.get(ref, ())) or ref in left_out_refs
         rails = fixed.get(plus or "") == "rail" and fixed.get(minus or "") == "rail"
         tied = plus is not None and quiet(plus) and minus is not None and (
             minus == out or quiet(minus))

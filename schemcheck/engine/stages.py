@@ -27,6 +27,7 @@ The field ``Opamp`` (case-insensitive) forces (``yes``) or forbids (``no``) reco
 
 from __future__ import annotations
 
+import functools
 import re
 from dataclasses import dataclass
 
@@ -206,7 +207,7 @@ def _channels(pins: tuple[Pin, ...]) -> list[tuple[int, Pin, Pin, Pin]]:
             if len(roles) == 3]
 
 
-def _pair_by_number(plus: list[Pin], minus: list[Pin], outs: list[Pin]
+def _pair_by_number(plus: tuple[Pin, ...], minus: tuple[Pin, ...], outs: tuple[Pin, ...]
                     ) -> list[tuple[Pin, Pin, Pin]]:
     """Netlist input (no units): give each output the nearest-numbered inputs."""
 
@@ -227,9 +228,51 @@ def _pair_by_number(plus: list[Pin], minus: list[Pin], outs: list[Pin]
     return groups
 
 
+@dataclass(frozen=True, slots=True)
+class _Reading:
+    """What a symbol's pins and words say (the same for every placement of it)."""
+
+    plus: tuple[Pin, ...]
+    minus: tuple[Pin, ...]
+    outs: tuple[Pin, ...]
+    channels: tuple[tuple[int, Pin, Pin, Pin], ...]
+    feedback: Pin | None
+    #: "" where the symbol is no amplifier, "skip" where it is one left out (``reason``)
+    verdict: str
+    reason: str | None
+
+
+@functools.lru_cache(maxsize=4096)
+def _read_symbol(pins: tuple[Pin, ...], description: str, keywords: str, lib_id: str,
+                 value: str, forced: bool | None) -> _Reading:
+    plus = tuple(_inputs(pins, _PLUS))
+    minus = tuple(_inputs(pins, _MINUS))
+    outs = tuple(_outputs(pins))
+    name = lib_id.rpartition(":")[2].replace("_", " ")
+    text = " ".join((description, keywords, lib_id, value, name))
+    channels = tuple(_channels(pins))
+    feedback = _feedback_pin(pins)
+    if not ((plus and minus) or channels):
+        if forced:
+            return _Reading(plus, minus, outs, channels, feedback, "skip",
+                            "marked Opamp=yes but no +/- input pins were found")
+        return _Reading(plus, minus, outs, channels, feedback, "", None)
+    if not outs and not channels and not (forced or _OPAMP_WORDS.search(text)):
+        # +/- pins but nothing amplifies: a cell, a bridge, a connector
+        return _Reading(plus, minus, outs, channels, feedback, "", None)
+    reason = _skip_reason(lib_id, description, pins, text, forced)
+    if reason is None and not channels and len(plus) == len(minus) == 1 and len(outs) == 2:
+        reason = ("fully differential amplifier (two outputs)" if _paired(list(outs)) else
+                  "1 non-inverting and 1 inverting input with 2 outputs: not a simple "
+                  "op-amp")
+    return _Reading(plus, minus, outs, channels, feedback,
+                    "amplifier" if reason is None else "skip", reason)
+
+
 def recognise(parts: tuple[Part, ...] | list[Part]
               ) -> tuple[list[OpampUnit], list[SkippedAmplifier]]:
-    """Op-amp units to analyse, and amplifiers recognised but left out (with why)."""
+    """Op-amp units to analyse, and amplifiers recognised but left out (with why). A
+    symbol's pins and words are read once however often it is placed."""
     units: list[OpampUnit] = []
     skipped: list[SkippedAmplifier] = []
     for part in parts:
@@ -238,25 +281,12 @@ def recognise(parts: tuple[Part, ...] | list[Part]
         forced = _forced(part)
         if forced is False:
             continue
-        plus = _inputs(part.pins, _PLUS)
-        minus = _inputs(part.pins, _MINUS)
-        outs = _outputs(part.pins)
-        name = part.lib_id.rpartition(":")[2].replace("_", " ")
-        text = " ".join((part.description, part.keywords, part.lib_id, part.value, name))
-        channels = _channels(part.pins)
-        if not ((plus and minus) or channels):
-            if forced:
-                skipped.append(SkippedAmplifier(
-                    part, "marked Opamp=yes but no +/- input pins were found"))
+        found = _read_symbol(part.pins, part.description, part.keywords, part.lib_id,
+                             part.value, forced)
+        if not found.verdict:
             continue
-        if not outs and not channels and not (forced or _OPAMP_WORDS.search(text)):
-            continue  # +/- pins but nothing amplifies: a cell, a bridge, a connector
-        reason = _skip_reason(part, text, forced)
-        if reason is None and not channels and len(plus) == len(minus) == 1 and len(outs) == 2:
-            reason = ("fully differential amplifier (two outputs)" if _paired(outs) else
-                      "1 non-inverting and 1 inverting input with 2 outputs: not a simple "
-                      "op-amp")
-        feedback = _feedback_pin(part.pins)
+        plus, minus, outs, channels = found.plus, found.minus, found.outs, found.channels
+        reason = found.reason
         if reason is not None:
             single = (OpampUnit(part, plus[0], minus[0], outs[0])
                       if reason.startswith("comparator") and not channels
@@ -265,7 +295,7 @@ def recognise(parts: tuple[Part, ...] | list[Part]
         elif channels:
             units.extend(OpampUnit(part, p, m, o, n) for n, p, m, o in channels)
         elif len(plus) == len(minus) == len(outs) == 1:
-            units.append(OpampUnit(part, plus[0], minus[0], outs[0], feedback=feedback))
+            units.append(OpampUnit(part, plus[0], minus[0], outs[0], feedback=found.feedback))
         elif len(plus) == len(minus) == len(outs) > 1:
             for n, (p, m, o) in enumerate(_pair_by_number(plus, minus, outs), start=1):
                 units.append(OpampUnit(part, p, m, o, n))
@@ -290,18 +320,19 @@ def described_as_opamp(part: Part) -> bool:
     return bool(_OPAMP_NAMED.search(text) or re.search(r"\bopamp", text, re.I))
 
 
-def _skip_reason(part: Part, text: str, forced: bool | None) -> str | None:
+def _skip_reason(lib_id: str, description: str, pins: tuple[Pin, ...], text: str,
+                 forced: bool | None) -> str | None:
     if forced:
         return None
-    library = part.lib_id.partition(":")[0].lower() if ":" in part.lib_id else ""
+    library = lib_id.partition(":")[0].lower() if ":" in lib_id else ""
     if library in _NOT_OPAMP_LIBRARIES:
         return _NOT_OPAMP_LIBRARIES[library]
     if any(p.electrical_type == "open_collector" or p.electrical_type == "open_emitter"
-           for p in part.pins):
+           for p in pins):
         return "comparator (open-collector output)"
     for pattern, reason in _NOT_ANALYSED:
         if pattern.search(text):
             return reason
-    if _TRANSIMPEDANCE.search(text) and not _OPAMP_NAMED.search(part.description):
+    if _TRANSIMPEDANCE.search(text) and not _OPAMP_NAMED.search(description):
         return "transimpedance amplifier"
     return None

@@ -12,7 +12,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 
-from schemcheck.engine.budget import stage_budget, total_at
+from schemcheck.engine.budget import total_at, worst_over_range
 from schemcheck.engine.dcerror import Piece, Solution, piece, solve, splice
 from schemcheck.engine.network import Network, Resistor
 from schemcheck.engine.params import OpampParams
@@ -101,7 +101,7 @@ def worst_case(solution: Solution, k: int, params: list[OpampParams],
     output is undefined or its own figures are missing."""
     if solution.status[k] != "ok" or not params[k].complete:
         return None
-    total = stage_budget(solution, k, params, temp_range).worst_case_over_temp_v
+    total = worst_over_range(solution, k, params, temp_range)
     if total is not None:
         return total
     low, high = temp_range
@@ -110,15 +110,22 @@ def worst_case(solution: Solution, k: int, params: list[OpampParams],
 
 @dataclass(frozen=True, slots=True)
 class Outcome:
-    """A change solved: the changed network's solution, stage k's noise gain and worst case
-    after it (volts), and the other stages whose worst case it raises: index -> (before,
-    after) in volts (after None where the stage loses its defined output)."""
+    """A change solved: the piece of the network it reaches, solved with the change made
+    (op-amp i of ``part`` is ``piece.opamps[i]``), stage k's status, noise gain and worst
+    case after it (volts), and the other stages whose worst case it raises: index ->
+    (before, after) in volts (after None where the stage loses its defined output)."""
 
     change: Change
-    solution: Solution
+    piece: Piece
+    part: Solution
+    status: str
     noise_gain: float | None
     worst_case_v: float | None
     raised: dict[int, tuple[float, float | None]]
+
+    def solution(self, before: Solution) -> Solution:
+        """The whole changed network's solution, from ``before`` (the network as drawn)."""
+        return splice(before, self.piece.opamps, self.part)
 
 
 class WhatIf:
@@ -159,33 +166,40 @@ class WhatIf:
 
     def attempt(self, k: int, change: Change) -> Outcome | None:
         """Solve the network with ``change`` made and measure stage k and every other
-        solved stage it reaches again; None where the change cannot be made."""
+        solved stage it reaches again; None where the change cannot be made or does not
+        reach stage k (it cannot lower its error). The figures
+        are read from the piece's own solution: every op-amp reaching a stage of the
+        piece lies in it."""
         found = self._piece(change)
-        if found is None:
+        if found is None or k not in found.opamps:
             return None
+        opamps = found.opamps
         local = change
         if change.kind == "series":
-            local = replace(change, opamp=found.opamps.index(change.opamp))
+            local = replace(change, opamp=opamps.index(change.opamp))
         changed = apply(found.network(self.network), local)
         if changed is None:
             return None
-        after = splice(self.solution, found.opamps, solve(changed))
-        own = after.own(k)
+        part = solve(changed)
+        params = [self.params[j] for j in opamps]
         raised: dict[int, tuple[float, float | None]] = {}
-        for j in found.opamps:
+        for i, j in enumerate(opamps):
             if j == k or self.solution.status[j] != "ok":
                 continue
-            if (after.status[j] == "ok" and after.tainted[j] == self.solution.tainted[j]
-                    and after.sensitivity[j] == self.solution.sensitivity[j]):
+            if (part.status[i] == "ok" and part.tainted[i] == self.solution.tainted[j]
+                    and {(opamps[m], source): value for (m, source), value
+                         in part.sensitivity[i].items()} == self.solution.sensitivity[j]):
                 continue  # not reached by the change
             before_j = self.before(j)
             if before_j is None:
                 continue
-            after_j = worst_case(after, j, self.params, self.temp_range)
+            after_j = worst_case(part, i, params, self.temp_range)
             if after_j is None or after_j > before_j:
                 raised[j] = (before_j, after_j)
-        return Outcome(change, after, own["vos"] if own else None,
-                       worst_case(after, k, self.params, self.temp_range), raised)
+        i = opamps.index(k)
+        own = part.own(i)
+        return Outcome(change, found, part, part.status[i], own["vos"] if own else None,
+                       worst_case(part, i, params, self.temp_range), raised)
 
 
 def thermal_noise(ohms: float, temp_c: float) -> float:
