@@ -204,7 +204,8 @@ def _systems(solution):
 
 
 def test_the_piece_a_change_reaches_solves_as_the_whole_network_does(tmp_path):
-    # The advice solves only the piece of the network a change reaches; the reference is
+    # The advice solves only the piece of the network a change reaches (a new value only
+    # the drawn system holding the resistor, inverted afresh); the reference is
     # the changed network solved whole (schemcheck.engine.dcerror.solve, itself checked
     # against sympy in tests/test_dcerror.py). Every status, sensitivity and system must be
     # the same, for every kind of change on every part, over the engine's circuits and
@@ -255,7 +256,7 @@ def test_the_piece_a_change_reaches_solves_as_the_whole_network_does(tmp_path):
             assert (whole is None) == (outcome is None), change
             if whole is None:
                 continue
-            got = outcome.solution(solution)
+            got = outcome.solution
             assert got.status == whole.status, change
             assert got.tainted == whole.tainted, change
             assert got.floating_inputs == whole.floating_inputs, change

@@ -363,3 +363,32 @@ def test_a_stage_bound_does_not_move_when_other_stages_are_added():
     assert bounds(stage + other, "update", 5000)[0] == alone[0]
     both = bounds(stage + twin, "update", 5000)
     assert both == [alone[0], alone[0]]
+
+
+def test_a_series_shown_to_settle_does_within_its_terms():
+    # The update's fixed-length path: where _known_terms shows a bound m, the series
+    # u = sum_i (-C Delta)^i q stopped after m terms differs from its limit (solved
+    # directly: (I + C Delta) u = q) by at most CONVERGED of max|q|, for the extreme
+    # resistor values of the band as well as random ones (Neumann series; the bound's
+    # derivation is in the function's docstring).
+    rng = np.random.default_rng(3)
+    shown = 0
+    for _ in range(60):
+        n_res = int(rng.integers(1, 7))
+        coupling = rng.normal(0.0, rng.choice([0.3, 1.0, 5.0]), (1, n_res, n_res))
+        tol = rng.choice([0.001, 0.01, 0.05, 0.1], size=(1, n_res))
+        [terms] = mc._known_terms(coupling, tol)
+        if terms < 0:
+            continue
+        shown += 1
+        for trial in range(20):
+            t = (rng.choice([-1.0, 1.0], n_res) if trial < 4 else rng.uniform(-1, 1, n_res))
+            d = -(tol[0] * t) / (1.0 + tol[0] * t)  # the conductance change of each resistor
+            q = rng.normal(size=n_res)
+            step = coupling[0] * d[None, :]
+            exact = np.linalg.solve(np.eye(n_res) + step, q)
+            u = q.copy()
+            for _ in range(terms):
+                u = q - step @ u
+            assert np.abs(u - exact).max() <= mc.CONVERGED * np.abs(q).max() * (1 + 1e-9)
+    assert shown >= 20

@@ -297,7 +297,7 @@ def solve(network: Network) -> Solution:
         by_size.setdefault(unknowns, []).append(system)
     for systems in by_size.values():
         for system, inverse in zip(systems, _inverses([s.matrix() for s in systems])):
-            _read(system, inverse, solution)
+            read_inverse(system, inverse, solution)
     return solution
 
 
@@ -394,7 +394,7 @@ def _inverses(matrices: list[np.ndarray]) -> list[np.ndarray | None]:
     """The inverse of each same-size matrix (one stacked LAPACK call); None where it is
     singular or its condition number (1-norm) exceeds MAX_CONDITION."""
     if len(matrices) == 1:  # the piece of a suggested change: no stacking to pay for
-        return [_inverse(matrices[0])]
+        return [invert(matrices[0])]
     stack = np.stack(matrices)
     try:
         inverses = np.linalg.inv(stack)
@@ -414,8 +414,8 @@ def _inverses(matrices: list[np.ndarray]) -> list[np.ndarray | None]:
     return [inverse if ok else None for inverse, ok in zip(inverses, trusted.tolist())]
 
 
-def _inverse(a: np.ndarray) -> np.ndarray | None:
-    """:func:`_inverses` of one matrix."""
+def invert(a: np.ndarray) -> np.ndarray | None:
+    """The inverse of one matrix, None as :func:`_inverses` says."""
     try:
         inverse = np.linalg.inv(a)
     except np.linalg.LinAlgError:
@@ -425,7 +425,7 @@ def _inverse(a: np.ndarray) -> np.ndarray | None:
     return inverse if math.isfinite(condition) and condition <= MAX_CONDITION else None
 
 
-def _read(system: System, inverse: np.ndarray | None, solution: Solution) -> None:
+def read_inverse(system: System, inverse: np.ndarray | None, solution: Solution) -> None:
     """The sensitivities of ``system``'s outputs from its nominal inverse."""
     status = solution.status
     if inverse is None:

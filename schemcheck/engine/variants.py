@@ -13,7 +13,16 @@ import math
 from dataclasses import dataclass, replace
 
 from schemcheck.engine.budget import total_at, worst_over_range
-from schemcheck.engine.dcerror import Piece, Solution, piece, solve, splice
+from schemcheck.engine.dcerror import (
+    Component,
+    Piece,
+    Solution,
+    invert,
+    piece,
+    read_inverse,
+    solve,
+    splice,
+)
 from schemcheck.engine.network import Network, Resistor
 from schemcheck.engine.params import OpampParams
 
@@ -110,22 +119,17 @@ def worst_case(solution: Solution, k: int, params: list[OpampParams],
 
 @dataclass(frozen=True, slots=True)
 class Outcome:
-    """A change solved: the piece of the network it reaches, solved with the change made
-    (op-amp i of ``part`` is ``piece.opamps[i]``), stage k's status, noise gain and worst
-    case after it (volts), and the other stages whose worst case it raises: index ->
-    (before, after) in volts (after None where the stage loses its defined output)."""
+    """A change solved: the whole changed network's solution, stage k's status, noise
+    gain and worst case after it (volts), and the other stages whose worst case it raises:
+    index -> (before, after) in volts (after None where the stage loses its defined
+    output)."""
 
     change: Change
-    piece: Piece
-    part: Solution
+    solution: Solution
     status: str
     noise_gain: float | None
     worst_case_v: float | None
     raised: dict[int, tuple[float, float | None]]
-
-    def solution(self, before: Solution) -> Solution:
-        """The whole changed network's solution, from ``before`` (the network as drawn)."""
-        return splice(before, self.piece.opamps, self.part)
 
 
 class WhatIf:
@@ -142,6 +146,7 @@ class WhatIf:
         self.params = params
         self.temp_range = temp_range
         self._before: dict[int, float | None] = {}
+        self._placed: dict[int, tuple[int, int]] | None = None  # resistor -> system, place
         self._refs: dict[str, list[int]] = {}
         for i, r in enumerate(network.resistors):
             self._refs.setdefault(r.ref, []).append(i)
@@ -167,39 +172,70 @@ class WhatIf:
     def attempt(self, k: int, change: Change) -> Outcome | None:
         """Solve the network with ``change`` made and measure stage k and every other
         solved stage it reaches again; None where the change cannot be made or does not
-        reach stage k (it cannot lower its error). The figures
-        are read from the piece's own solution: every op-amp reaching a stage of the
-        piece lies in it."""
+        reach stage k (it cannot lower its error)."""
         found = self._piece(change)
         if found is None or k not in found.opamps:
             return None
-        opamps = found.opamps
-        local = change
-        if change.kind == "series":
-            local = replace(change, opamp=opamps.index(change.opamp))
-        changed = apply(found.network(self.network), local)
-        if changed is None:
-            return None
-        part = solve(changed)
-        params = [self.params[j] for j in opamps]
+        after = self._revalued(change) if change.kind == "value" else None
+        if after is None:
+            local = change
+            if change.kind == "series":
+                local = replace(change, opamp=found.opamps.index(change.opamp))
+            changed = apply(found.network(self.network), local)
+            if changed is None:
+                return None
+            after = splice(self.solution, found.opamps, solve(changed))
         raised: dict[int, tuple[float, float | None]] = {}
-        for i, j in enumerate(opamps):
+        for j in found.opamps:
             if j == k or self.solution.status[j] != "ok":
                 continue
-            if (part.status[i] == "ok" and part.tainted[i] == self.solution.tainted[j]
-                    and {(opamps[m], source): value for (m, source), value
-                         in part.sensitivity[i].items()} == self.solution.sensitivity[j]):
+            if (after.status[j] == "ok" and after.tainted[j] == self.solution.tainted[j]
+                    and after.sensitivity[j] == self.solution.sensitivity[j]):
                 continue  # not reached by the change
             before_j = self.before(j)
             if before_j is None:
                 continue
-            after_j = worst_case(part, i, params, self.temp_range)
+            after_j = worst_case(after, j, self.params, self.temp_range)
             if after_j is None or after_j > before_j:
                 raised[j] = (before_j, after_j)
-        i = opamps.index(k)
-        own = part.own(i)
-        return Outcome(change, found, part, part.status[i], own["vos"] if own else None,
-                       worst_case(part, i, params, self.temp_range), raised)
+        own = after.own(k)
+        return Outcome(change, after, after.status[k], own["vos"] if own else None,
+                       worst_case(after, k, self.params, self.temp_range), raised)
+
+    def _revalued(self, change: Change) -> Solution | None:
+        """The solution with resistor ``change.ref`` at another value, where the drawn
+        network solved the system holding it: the same connections, so the same statuses
+        and the same system with one conductance changed, inverted afresh (what
+        :func:`solve` of the changed network does, without finding its connections
+        again). None where that does not apply (the change is then solved in full)."""
+        if not 0.0 < change.ohms < math.inf:
+            return None
+        if self._placed is None:
+            self._placed = {id(r): (index, position)
+                            for index, system in enumerate(self.solution.systems)
+                            for position, r in enumerate(system.component.resistors)}
+        old = self.network.resistors[self._refs[change.ref][0]]
+        where = self._placed.get(id(old))
+        if where is None or self.solution.systems[where[0]].inverse is None:
+            return None
+        index, position = where
+        system = self.solution.systems[index]
+        conductance = system.conductance.copy()
+        conductance[position] = 1.0 / change.ohms
+        resistors = list(system.component.resistors)
+        resistors[position] = replace(old, ohms=change.ohms)
+        component = Component(system.component.nets, system.component.opamps, resistors)
+        changed = replace(system, component=component, conductance=conductance,
+                          inverse=None)
+        before = self.solution
+        after = Solution(list(before.status), list(before.sensitivity), list(before.tainted),
+                         list(before.floating_inputs), list(before.systems), list(before.notes))
+        for j in component.opamps:
+            after.sensitivity[j] = {}
+            after.tainted[j] = False
+        after.systems[index] = changed
+        read_inverse(changed, invert(changed.matrix()), after)
+        return after
 
 
 def thermal_noise(ohms: float, temp_c: float) -> float:
