@@ -36,9 +36,10 @@ Draws: each is one of 65536 equally likely levels (16 random bits): a resistor's
 is at the middle of one of 65536 equal steps across its tolerance band, a parameter at
 the quantile of the middle of one of 65536 equal steps of probability (a table). The
 draws come from the seed and the network's shape (unknowns, resistors, sources, outputs)
-alone: networks of one shape share them, so a stage's bound does not move when another
-stage is added to the design, two identical stages get the same bound, and the products
-of a block of networks with the draws are one matrix product each.
+alone: networks of one shape share them, so a stage's bound does not move when a stage
+of another network is added to the design, two identical stages with networks of their
+own get the same bound, and the products of a block of networks with the draws are one
+matrix product each.
 
 Bounded resources: samples are drawn and solved in chunks of about ``CHUNK_VALUES``
 numbers, and the percentile keeps only the upper tail it needs, so memory does not grow
