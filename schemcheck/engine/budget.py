@@ -17,6 +17,7 @@ For the output of stage k and each op-amp j whose sources reach it:
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -86,8 +87,14 @@ def stage_budget(solution: Solution, k: int, params: list[OpampParams],
     return budget
 
 
+#: the figures of an op-amp at a temperature, given the top of the range
+#: (:func:`schemcheck.engine.params.at_temperature`, or a cache of it)
+Figures = Callable[[OpampParams, float, float], AtTemperature]
+
+
 def worst_over_range(solution: Solution, k: int, params: list[OpampParams],
-                     temp_range: tuple[float, float]) -> float | None:
+                     temp_range: tuple[float, float], at: Figures = at_temperature
+                     ) -> float | None:
     """:attr:`StageBudget.worst_case_over_temp_v` of op-amp k alone (volts): None where
     k is not solved, an undefined output reaches it, or an op-amp reaching it has no
     figures."""
@@ -96,24 +103,26 @@ def worst_over_range(solution: Solution, k: int, params: list[OpampParams],
     sources = reaching(solution, k)
     if not all(params[j].complete for j in sources):
         return None
-    return _over_range(solution, k, params, temp_range, sources)[0]
+    return _over_range(solution, k, params, temp_range, sources, at)[0]
 
 
 def _over_range(solution: Solution, k: int, params: list[OpampParams],
-                temp_range: tuple[float, float], sources: list[int]) -> tuple[float, float]:
+                temp_range: tuple[float, float], sources: list[int],
+                at: Figures = at_temperature) -> tuple[float, float]:
     """The worst-case total at op-amp k's output at the worse end of the range, and that
     end (the top where both are equal)."""
     low, high = temp_range
-    return max(((total_at(solution, k, params, temp, high, sources), temp)
+    return max(((total_at(solution, k, params, temp, high, sources, at), temp)
                 for temp in sorted({low, high}, reverse=True)), key=lambda pair: pair[0])
 
 
 def total_at(solution: Solution, k: int, params: list[OpampParams], temp: float,
-             range_top: float, sources: list[int] | None = None) -> float:
+             range_top: float, sources: list[int] | None = None,
+             at: Figures = at_temperature) -> float:
     """Worst-case total at op-amp k's output at ``temp`` (incomplete parts count 0)."""
     value = 0.0
     for j in reaching(solution, k) if sources is None else sources:
-        terms = _terms(solution, k, j, at_temperature(params[j], temp, range_top))
+        terms = _terms(solution, k, j, at(params[j], temp, range_top))
         value += sum(terms or [])
     return value
 

@@ -12,11 +12,12 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 
-from schemcheck.engine.budget import total_at, worst_over_range
+from schemcheck.engine.budget import Figures, total_at, worst_over_range
 from schemcheck.engine.dcerror import (
     Component,
     Piece,
     Solution,
+    System,
     invert,
     piece,
     read_inverse,
@@ -24,7 +25,7 @@ from schemcheck.engine.dcerror import (
     splice,
 )
 from schemcheck.engine.network import Network, Resistor
-from schemcheck.engine.params import OpampParams
+from schemcheck.engine.params import AtTemperature, OpampParams, at_temperature
 
 #: Boltzmann's constant, J/K (exact since the 2019 SI redefinition, BIPM SI Brochure 9th ed.)
 BOLTZMANN = 1.380649e-23
@@ -104,17 +105,18 @@ def _series(network: Network, change: Change) -> Network | None:
 
 
 def worst_case(solution: Solution, k: int, params: list[OpampParams],
-               temp_range: tuple[float, float]) -> float | None:
+               temp_range: tuple[float, float], at: Figures = at_temperature) -> float | None:
     """Stage k's worst-case output error over the temperature range (volts): the total
     where every op-amp reaching it has figures, else its own terms alone; None where its
-    output is undefined or its own figures are missing."""
+    output is undefined or its own figures are missing. ``at``: the op-amps' figures at a
+    temperature (a cache may stand in)."""
     if solution.status[k] != "ok" or not params[k].complete:
         return None
-    total = worst_over_range(solution, k, params, temp_range)
+    total = worst_over_range(solution, k, params, temp_range, at)
     if total is not None:
         return total
     low, high = temp_range
-    return max(total_at(solution, k, params, temp, high, [k]) for temp in {low, high})
+    return max(total_at(solution, k, params, temp, high, [k], at) for temp in {low, high})
 
 
 @dataclass(frozen=True, slots=True)
@@ -147,14 +149,27 @@ class WhatIf:
         self.temp_range = temp_range
         self._before: dict[int, float | None] = {}
         self._placed: dict[int, tuple[int, int]] | None = None  # resistor -> system, place
+        self._pieces: dict[int, Piece] = {}  # resistor index -> the piece it reaches
+        self._at: dict[tuple[int, float, float], AtTemperature] = {}  # held: params lives
         self._refs: dict[str, list[int]] = {}
         for i, r in enumerate(network.resistors):
             self._refs.setdefault(r.ref, []).append(i)
 
+    def _worst(self, solution: Solution, k: int) -> float | None:
+        return worst_case(solution, k, self.params, self.temp_range, self._figures)
+
+    def _figures(self, params: OpampParams, temp: float, top: float) -> AtTemperature:
+        """:func:`at_temperature`, each op-amp's figures worked out once per temperature."""
+        key = (id(params), temp, top)
+        found = self._at.get(key)
+        if found is None:
+            found = self._at[key] = at_temperature(params, temp, top)
+        return found
+
     def before(self, k: int) -> float | None:
         """Stage k's worst case as drawn (volts; see :func:`worst_case`)."""
         if k not in self._before:
-            self._before[k] = worst_case(self.solution, k, self.params, self.temp_range)
+            self._before[k] = self._worst(self.solution, k)
         return self._before[k]
 
     def _piece(self, change: Change) -> Piece | None:
@@ -166,8 +181,10 @@ class WhatIf:
         found = self._refs.get(change.ref, [])
         if len(found) != 1:
             return None
-        r = self.network.resistors[found[0]]
-        return piece(self.network, [r.a, r.b])
+        if found[0] not in self._pieces:  # each change of one resistor reaches one piece
+            r = self.network.resistors[found[0]]
+            self._pieces[found[0]] = piece(self.network, [r.a, r.b])
+        return self._pieces[found[0]]
 
     def attempt(self, k: int, change: Change) -> Outcome | None:
         """Solve the network with ``change`` made and measure stage k and every other
@@ -195,12 +212,12 @@ class WhatIf:
             before_j = self.before(j)
             if before_j is None:
                 continue
-            after_j = worst_case(after, j, self.params, self.temp_range)
+            after_j = self._worst(after, j)
             if after_j is None or after_j > before_j:
                 raised[j] = (before_j, after_j)
         own = after.own(k)
         return Outcome(change, after, after.status[k], own["vos"] if own else None,
-                       worst_case(after, k, self.params, self.temp_range), raised)
+                       self._worst(after, k), raised)
 
     def _revalued(self, change: Change) -> Solution | None:
         """The solution with resistor ``change.ref`` at another value, where the drawn
@@ -223,10 +240,11 @@ class WhatIf:
         conductance = system.conductance.copy()
         conductance[position] = 1.0 / change.ohms
         resistors = list(system.component.resistors)
-        resistors[position] = replace(old, ohms=change.ohms)
+        resistors[position] = Resistor(old.ref, old.a, old.b, change.ohms, old.tolerance,
+                                       old.tolerance_source)
         component = Component(system.component.nets, system.component.opamps, resistors)
-        changed = replace(system, component=component, conductance=conductance,
-                          inverse=None)
+        changed = System(component, system.base, system.stamps, conductance, system.rhs,
+                         system.columns, system.out_rows, system.net_rows)
         before = self.solution
         after = Solution(list(before.status), list(before.sensitivity), list(before.tainted),
                          list(before.floating_inputs), list(before.systems), list(before.notes))
