@@ -133,12 +133,20 @@ def audit_netlist(netlist: Netlist, settings: Settings,
                                                unit.channel, omission.topology))
     problems = list(network.problems)
     params: list[OpampParams] = []
+    resolved: dict[tuple[Any, ...], OpampParams] = {}  # what reads alike resolves alike
     for op in network.opamps:
-        try:
-            p = resolve(op.unit.part, library, estimate=settings.estimate_missing)
-        except ParameterError as error:
-            problems.append(str(error))
-            p = OpampParams(source={"error": str(error)})
+        part = op.unit.part
+        # everything resolve reads of a part (its reference only names it in an error)
+        key = (part.value, part.lib_id, part.description, part.keywords,
+               tuple(sorted((k, v) for k, v in part.fields.items()
+                            if k.casefold() != "reference")))
+        p = resolved.get(key)
+        if p is None:
+            try:
+                p = resolved[key] = resolve(part, library, estimate=settings.estimate_missing)
+            except ParameterError as error:
+                problems.append(str(error))
+                p = OpampParams(source={"error": str(error)})
         params.append(p)
         op.aol = p.aol
     # overflow and 0/0 give inf and nan, which are caught below: no warning about them

@@ -21,7 +21,7 @@ def _large(ctx: StageContext, net: str) -> list[Resistor]:
     """Resistors over LARGE_OHMS on ``net``'s DC path: the resistive region around it
     (not through sources or op-amp outputs), with the resistors that end it."""
     network = ctx.network
-    stops = set(network.fixed) | {op.out for op in network.opamps}
+    fixed, outputs = network.fixed, network.lookup().outputs
     seen = {net}
     queue = deque([net])
     found: dict[str, Resistor] = {}
@@ -31,7 +31,7 @@ def _large(ctx: StageContext, net: str) -> list[Resistor]:
             if r.ohms > LARGE_OHMS:
                 found[r.ref] = r
             other = r.b if r.a == here else r.a
-            if other not in seen and other not in stops:
+            if other not in seen and other not in fixed and other not in outputs:
                 seen.add(other)
                 queue.append(other)
     return sorted(found.values(), key=lambda r: -r.ohms)

@@ -97,7 +97,7 @@ def _unreadable_in_reach(network: Network, k: int) -> Unreadable | None:
     if not network.unreadable:
         return None
     op = network.opamps[k]
-    stops = set(network.fixed) | {o.out for o in network.opamps}
+    fixed, outputs = network.fixed, network.lookup().outputs
     by_net: dict[str, list[Unreadable]] = {}
     for part in network.unreadable:
         for net in part.nets:
@@ -106,7 +106,7 @@ def _unreadable_in_reach(network: Network, k: int) -> Unreadable | None:
     queue = deque(seen)
     while queue:
         net = queue.popleft()
-        if net in stops:
+        if net in fixed or net in outputs:
             continue  # a source or an op-amp output: what hangs on it does not matter here
         if net in by_net:
             return by_net[net][0]
@@ -377,7 +377,7 @@ def excluded_sources(network: Network, k: int) -> list[str]:
     """Amplifiers that are not analysed whose outputs feed stage k (through resistors and
     other analysed stages): its totals leave out their error."""
     op = network.opamps[k]
-    by_out = {o.out: o for j, o in enumerate(network.opamps) if j != k}
+    drivers = network.lookup().drivers
     found: list[str] = []
     seen = {op.plus, op.minus}
     queue = deque(seen)
@@ -388,8 +388,9 @@ def excluded_sources(network: Network, k: int) -> list[str]:
             found.append(driver)
         if net in network.fixed or net == op.out:
             continue  # a source, or the stage's own output (an ideal source for its load)
-        upstream = by_out.get(net)
-        if upstream is not None:  # another stage's output: its error comes from its inputs
+        others = [j for j in drivers.get(net, ()) if j != k]
+        if others:  # another stage's output: its error comes from its inputs
+            upstream = network.opamps[others[-1]]
             nexts = [upstream.plus, upstream.minus]
         else:
             nexts = [r.b if r.a == net else r.a for r in network.resistors_at(net)]

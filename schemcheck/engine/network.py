@@ -134,6 +134,8 @@ class NetLookup:
     inputs: dict[str, list[tuple[int, str]]]
     #: op-amp output net -> its op-amp's index (the last, where outputs are tied)
     outputs: dict[str, int]
+    #: op-amp output net -> every op-amp driving it (indices, in order)
+    drivers: dict[str, list[int]]
     #: net -> the nets one capacitor away
     capacitors: dict[str, list[str]]
     #: net -> the net sets of the parts that may conduct touching it
@@ -166,7 +168,10 @@ class NetLookup:
         for j, o in enumerate(network.opamps):
             for net in dict.fromkeys((o.plus, o.minus, o.out)):
                 pins.setdefault(net, []).append(j)
-        return NetLookup(inputs, {o.out: j for j, o in enumerate(network.opamps)},
+        drivers: dict[str, list[int]] = {}
+        for j, o in enumerate(network.opamps):
+            drivers.setdefault(o.out, []).append(j)
+        return NetLookup(inputs, {o.out: j for j, o in enumerate(network.opamps)}, drivers,
                          capacitors, conducting, resistors, pins)
 
 
