@@ -246,23 +246,28 @@ def _run_group(solution: Solution, params: list[OpampParams], members: list[_Net
             position *= np.float32(2.0 / _LEVELS)
             position += np.float32(1.0 / _LEVELS - 1.0)
             draws = quantiles[levels[n_res:]]  # (n_z, n)
+            last = start + n >= samples
+            # one row of conductance changes for all where every tolerance is the same
+            shared = _relative(full.tol, position) if full.same_tolerances else None
             for block, tail, bad in zip(blocks, tails, undefined):
-                relative = _relative(full.tol[block], position)
+                relative = shared if shared is not None else _relative(full.tol[block],
+                                                                       position)
                 if model is not None:
                     errors = model.outputs(block, relative, draws, max_iterations)
                 else:
                     errors = full.outputs(block, relative, draws)
                 np.abs(errors, out=errors)
-                if not np.isfinite(errors).all():  # a singular sample, or overflow
+                if not np.isfinite(errors.max()):  # a singular sample, or overflow (nan too)
                     bad |= ~np.isfinite(errors).all(axis=2)
                 count = block.stop - block.start
                 tail.add(errors.reshape(count * n_out, n))
-                tail.shrink()  # every block's tail is held at once: only what it needs
-        for block, tail, bad in zip(blocks, tails, undefined):
-            bounds = tail.percentile().reshape(block.stop - block.start, n_out)
-            bounds[bad] = np.nan
-            for g, net in enumerate(segment[block]):
-                _record(solution, params, net, bounds[g], samples, run)
+                if not last:
+                    tail.shrink()  # every block's tail is held at once: only what it needs
+                    continue
+                bounds = tail.percentile().reshape(count, n_out)
+                bounds[bad] = np.nan
+                for g, net in enumerate(segment[block]):
+                    _record(solution, params, net, bounds[g], samples, run)
 
 
 def _relative(tol: np.ndarray, position: np.ndarray) -> np.ndarray:
@@ -335,6 +340,7 @@ class _Full:
         self.res_b = np.stack([n.res_b for n in members])
         self.g0 = np.stack([n.g0 for n in members])  # siemens
         self.tol = np.stack([n.tol for n in members])
+        self.same_tolerances = bool((self.tol == self.tol[:1]).all())
         size, n_res = self.base.shape[1], self.g0.shape[1]
         # each resistor's four stamp entries as flat positions in the matrix, with signs
         positions, signs, owners = [], [], []
