@@ -204,8 +204,9 @@ def _systems(solution):
 
 
 def test_the_piece_a_change_reaches_solves_as_the_whole_network_does(tmp_path):
-    # The advice solves only the piece of the network a change reaches (a new value only
-    # the drawn system holding the resistor, inverted afresh); the reference is
+    # The advice solves only the piece of the network a change reaches (a new value: the
+    # drawn system holding the resistor, inverted afresh; a wire in place of a + input's
+    # resistor to a rail: that system less the input's row); the reference is
     # the changed network solved whole (schemcheck.engine.dcerror.solve, itself checked
     # against sympy in tests/test_dcerror.py). Every status, sensitivity and system must be
     # the same, for every kind of change on every part, over the engine's circuits and

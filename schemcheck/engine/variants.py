@@ -12,6 +12,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 
+import numpy as np
+
 from schemcheck.engine.budget import Figures, total_at, worst_over_range
 from schemcheck.engine.dcerror import (
     Component,
@@ -193,7 +195,8 @@ class WhatIf:
         found = self._piece(change)
         if found is None or k not in found.opamps:
             return None
-        after = self._revalued(change) if change.kind == "value" else None
+        after = (self._revalued(change) if change.kind == "value" else
+                 self._grounded(change) if change.kind == "wire" else None)
         if after is None:
             local = change
             if change.kind == "series":
@@ -219,23 +222,29 @@ class WhatIf:
         return Outcome(change, after, after.status[k], own["vos"] if own else None,
                        self._worst(after, k), raised)
 
+    def _held(self, ref: str) -> tuple[Resistor, int, int] | None:
+        """Resistor ``ref`` (named once), the drawn system holding it and its place there;
+        None where no solved system holds it."""
+        if self._placed is None:
+            self._placed = {id(r): (index, position)
+                            for index, system in enumerate(self.solution.systems)
+                            for position, r in enumerate(system.component.resistors)}
+        resistor = self.network.resistors[self._refs[ref][0]]
+        where = self._placed.get(id(resistor))
+        if where is None or self.solution.systems[where[0]].inverse is None:
+            return None
+        return resistor, where[0], where[1]
+
     def _revalued(self, change: Change) -> Solution | None:
         """The solution with resistor ``change.ref`` at another value, where the drawn
         network solved the system holding it: the same connections, so the same statuses
         and the same system with one conductance changed, inverted afresh (what
         :func:`solve` of the changed network does, without finding its connections
         again). None where that does not apply (the change is then solved in full)."""
-        if not 0.0 < change.ohms < math.inf:
+        held = self._held(change.ref) if 0.0 < change.ohms < math.inf else None
+        if held is None:
             return None
-        if self._placed is None:
-            self._placed = {id(r): (index, position)
-                            for index, system in enumerate(self.solution.systems)
-                            for position, r in enumerate(system.component.resistors)}
-        old = self.network.resistors[self._refs[change.ref][0]]
-        where = self._placed.get(id(old))
-        if where is None or self.solution.systems[where[0]].inverse is None:
-            return None
-        index, position = where
+        old, index, position = held
         system = self.solution.systems[index]
         conductance = system.conductance.copy()
         conductance[position] = 1.0 / change.ohms
@@ -243,12 +252,56 @@ class WhatIf:
         resistors[position] = Resistor(old.ref, old.a, old.b, change.ohms, old.tolerance,
                                        old.tolerance_source)
         component = Component(system.component.nets, system.component.opamps, resistors)
-        changed = System(component, system.base, system.stamps, conductance, system.rhs,
-                         system.columns, system.out_rows, system.net_rows)
+        return self._with_system(index, System(
+            component, system.base, system.stamps, conductance, system.rhs, system.columns,
+            system.out_rows, system.net_rows))
+
+    def _grounded(self, change: Change) -> Solution | None:
+        """The solution with a resistor from a fixed net to a net that holds nothing else
+        but one op-amp's + input replaced by a wire: that net joins the fixed one. It was
+        a leaf of the network (no DC feedback can pass it, nothing else is grounded
+        through it), so the statuses stay and the system loses its row and column and the
+        resistor, as :func:`solve` of the changed network builds it. None where that does
+        not apply (the change is then solved in full)."""
+        held = self._held(change.ref)
+        if held is None:
+            return None
+        resistor, index, position = held
+        fixed = self.network.fixed
+        if (resistor.a in fixed) == (resistor.b in fixed):
+            return None
+        net = resistor.b if resistor.a in fixed else resistor.a
+        lookup = self.network.lookup()
+        pins = lookup.pins.get(net, [])
+        if lookup.resistors.get(net) != [self._refs[change.ref][0]] or len(pins) != 1:
+            return None
+        op = self.network.opamps[pins[0]]
+        system = self.solution.systems[index]
+        row = system.net_rows.get(net)
+        if op.plus != net or op.minus == net or op.out == net or row is None:
+            return None
+        keep = [i for i in range(system.base.shape[0]) if i != row]
+
+        def moved(i: int) -> int:
+            return i - (i > row) if i >= 0 else -1
+
+        nets = [n for n in system.component.nets if n != net]
+        component = Component(nets, system.component.opamps,
+                              [r for p, r in enumerate(system.component.resistors)
+                               if p != position])
+        return self._with_system(index, System(
+            component, system.base[np.ix_(keep, keep)],
+            [(moved(a), moved(b)) for p, (a, b) in enumerate(system.stamps) if p != position],
+            np.delete(system.conductance, position), system.rhs[keep], system.columns,
+            {k: moved(r) for k, r in system.out_rows.items()},
+            {n: i for i, n in enumerate(nets)}))
+
+    def _with_system(self, index: int, changed: System) -> Solution:
+        """The drawn solution with system ``index`` replaced by ``changed``, solved."""
         before = self.solution
         after = Solution(list(before.status), list(before.sensitivity), list(before.tainted),
                          list(before.floating_inputs), list(before.systems), list(before.notes))
-        for j in component.opamps:
+        for j in changed.component.opamps:
             after.sensitivity[j] = {}
             after.tainted[j] = False
         after.systems[index] = changed
