@@ -8,6 +8,7 @@ Accepted: ``10k``, ``4k7`` (the prefix letter as the decimal mark; ``R`` for ohm
 
 from __future__ import annotations
 
+import functools
 import math
 import re
 from dataclasses import dataclass
@@ -117,6 +118,7 @@ class Resistance:
     taper: str = ""
 
 
+@functools.lru_cache(maxsize=4096)  # pure; a design repeats its values (an error is not kept)
 def read_resistance(text: str, what: str = "resistance", *, taper: bool = False
                     ) -> Resistance:
     """A resistance in any notation of the trade and of the editor's libraries.

@@ -192,21 +192,25 @@ class WhatIf:
         """Solve the network with ``change`` made and measure stage k and every other
         solved stage it reaches again; None where the change cannot be made or does not
         reach stage k (it cannot lower its error)."""
-        found = self._piece(change)
-        if found is None or k not in found.opamps:
-            return None
-        after = (self._revalued(change) if change.kind == "value" else
-                 self._grounded(change) if change.kind == "wire" else None)
-        if after is None:
+        fast = (self._revalued(change) if change.kind == "value" else
+                self._grounded(change) if change.kind == "wire" else None)
+        if fast is not None:
+            after, reached = fast
+        else:
+            found = self._piece(change)
+            if found is None or k not in found.opamps:
+                return None
             local = change
             if change.kind == "series":
                 local = replace(change, opamp=found.opamps.index(change.opamp))
             changed = apply(found.network(self.network), local)
             if changed is None:
                 return None
-            after = splice(self.solution, found.opamps, solve(changed))
+            after, reached = splice(self.solution, found.opamps, solve(changed)), found.opamps
+        if k not in reached:
+            return None
         raised: dict[int, tuple[float, float | None]] = {}
-        for j in found.opamps:
+        for j in reached:
             if j == k or self.solution.status[j] != "ok":
                 continue
             if (after.status[j] == "ok" and after.tainted[j] == self.solution.tainted[j]
@@ -235,12 +239,13 @@ class WhatIf:
             return None
         return resistor, where[0], where[1]
 
-    def _revalued(self, change: Change) -> Solution | None:
+    def _revalued(self, change: Change) -> tuple[Solution, list[int]] | None:
         """The solution with resistor ``change.ref`` at another value, where the drawn
         network solved the system holding it: the same connections, so the same statuses
         and the same system with one conductance changed, inverted afresh (what
         :func:`solve` of the changed network does, without finding its connections
-        again). None where that does not apply (the change is then solved in full)."""
+        again), and the op-amps it reaches. None where that does not apply (the change is then
+        solved in full)."""
         held = self._held(change.ref) if 0.0 < change.ohms < math.inf else None
         if held is None:
             return None
@@ -256,13 +261,13 @@ class WhatIf:
             component, system.base, system.stamps, conductance, system.rhs, system.columns,
             system.out_rows, system.net_rows))
 
-    def _grounded(self, change: Change) -> Solution | None:
+    def _grounded(self, change: Change) -> tuple[Solution, list[int]] | None:
         """The solution with a resistor from a fixed net to a net that holds nothing else
         but one op-amp's + input replaced by a wire: that net joins the fixed one. It was
         a leaf of the network (no DC feedback can pass it, nothing else is grounded
         through it), so the statuses stay and the system loses its row and column and the
-        resistor, as :func:`solve` of the changed network builds it. None where that does
-        not apply (the change is then solved in full)."""
+        resistor, as :func:`solve` of the changed network builds it; and the op-amps it
+        reaches. None where that does not apply (the change is then solved in full)."""
         held = self._held(change.ref)
         if held is None:
             return None
@@ -296,8 +301,9 @@ class WhatIf:
             {k: moved(r) for k, r in system.out_rows.items()},
             {n: i for i, n in enumerate(nets)}))
 
-    def _with_system(self, index: int, changed: System) -> Solution:
-        """The drawn solution with system ``index`` replaced by ``changed``, solved."""
+    def _with_system(self, index: int, changed: System) -> tuple[Solution, list[int]]:
+        """The drawn solution with system ``index`` replaced by ``changed``, solved, and
+        the op-amps whose figures that moved."""
         before = self.solution
         after = Solution(list(before.status), list(before.sensitivity), list(before.tainted),
                          list(before.floating_inputs), list(before.systems), list(before.notes))
@@ -306,7 +312,7 @@ class WhatIf:
             after.tainted[j] = False
         after.systems[index] = changed
         read_inverse(changed, invert(changed.matrix()), after)
-        return after
+        return after, changed.component.opamps
 
 
 def thermal_noise(ohms: float, temp_c: float) -> float:
