@@ -270,3 +270,51 @@ def test_the_piece_a_change_reaches_solves_as_the_whole_network_does(tmp_path):
             compared += 1
             measured += outcome.worst_case_v is not None
     assert compared > 500 and measured > 300
+
+
+def test_changes_skipped_below_the_own_vos_floor_would_not_have_been_advised(tmp_path,
+                                                                             monkeypatch):
+    # A change is not solved where the stage's own Vos term (noise gain x Vos at the worse
+    # end, which a suggestion must keep) already forbids the cut it needs. Over seeded
+    # random circuits with part figures and the advice fixtures above, the findings with
+    # that shortcut and with every change solved are the same; and on a stage where Vos
+    # dominates nothing is solved at all (handbook DC error terms, see the module's
+    # sources): noise gain 11, Vos term 11 x 1 mV = 11 mV; s_ib+ = -11 x 9.1k = -100.1 kΩ,
+    # s_ib- = 11 x (10k || 100k) = 100.0 kΩ, so Ib 20 nA x |s_ib+ + s_ib-| 0.1 kΩ = 2 µV and
+    # Ios 0.2 nA x |s_ib+ - s_ib-| / 2 = 100.05 kΩ = 20 µV: the floor is 99.8 % of the
+    # worst case, so not even the 1 % a wire must cut is within reach.
+    from schemcheck.checks import bias_resistor
+    from schemcheck.circuit.load import load_netlist
+    from schemcheck.engine.variants import WhatIf
+
+    from .draw_circuits import draw
+    from .random_circuits import circuits
+
+    netlists = []
+    for rc in circuits(24, base_seed=5):
+        path = tmp_path / f"{rc.name}.kicad_sch"
+        path.write_text(draw(rc).text(), encoding="utf-8")
+        netlists.append(load_netlist(path))
+    netlists.append(circuit("J1 IN GND", "R1 IN p 82k", f"U1 p=p m=out out=out {BIG_IB}"))
+    netlists.append(circuit("J1 IN GND", "J2 IN2 GND", "R1 IN m1 10k", "R2 m1 o1 100k",
+                            f"U1 p=GND m=m1 out=o1 {BIG_IB}", "R3 IN2 m2 10k",
+                            "R4 m2 o2 100k", f"U2 p=GND m=m2 out=o2 {BIG_IB}", "R5 m1 m2 1M"))
+
+    def findings():
+        return [[(f.rule, f.stage, f.message) for f in
+                 audit_netlist(netlist, Settings(mc_samples=0)).findings]
+                for netlist in netlists]
+
+    shortcut = findings()
+    monkeypatch.setattr(bias_resistor, "own_vos_floor", lambda ctx, k, gain: 0.0)
+    assert findings() == shortcut
+    assert any(f for design in shortcut for f in design if f[0].startswith("bias-resistor"))
+    monkeypatch.undo()
+
+    solved = []
+    real = WhatIf.attempt
+    monkeypatch.setattr(WhatIf, "attempt",
+                        lambda self, k, change: solved.append(change) or real(self, k, change))
+    result = run("J1 IN GND", "R1 IN m 10k", "R2 m out 100k", "R3 p GND 9.1k",
+                 "U1 p=p m=m out=out Vos=1mV Ib=20nA Ios=0.2nA Input=bipolar")
+    assert advice(result) == [] and solved == []

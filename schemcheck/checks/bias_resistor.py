@@ -23,7 +23,9 @@ Parts are added (and a bias return lowered) only for inputs whose bias currents 
 (bipolar inputs without internal cancellation, :attr:`OpampParams.bias_currents_matched`):
 elsewhere an added resistor cancels nothing and costs noise (common practice).
 
-Each change is solved (:mod:`schemcheck.engine.variants`); advice is given only where the
+Each change is solved (:mod:`schemcheck.engine.variants`), except one that could not pass:
+no change that keeps the noise gain brings the worst case below the stage's own Vos term
+(:func:`own_vos_floor`). Advice is given only where the
 stage's worst case over temperature falls (by at least :data:`WORTHWHILE` for a value,
 :data:`WORTH_ADDING` for a part added, :data:`NOT_WORTH_A_PART` for a resistor replaced by
 a wire, which is preferred where it does as well as any value), its noise gain is
@@ -40,6 +42,7 @@ from dataclasses import dataclass
 from schemcheck.checks.context import StageContext
 from schemcheck.engine.eseries import nearest
 from schemcheck.engine.network import Resistor
+from schemcheck.engine.params import at_temperature
 from schemcheck.engine.variants import Change, Outcome, WhatIf, thermal_noise
 from schemcheck.model import Finding
 from schemcheck.units import format_si
@@ -109,9 +112,12 @@ class _Stage:
         self.r_minus = self.s_m / self.s_vos + 0.0
         self.before = whatif.before(k) or 0.0
         self.op = ctx.network.opamps[k]
+        self.floor = own_vos_floor(ctx, k, self.s_vos)
 
     def attempt(self, change: Change, action: str, ideal: float, cut: float
                 ) -> _Candidate | None:
+        if self.floor >= self.before * (1.0 - cut):
+            return None  # no change that keeps the noise gain can cut the error that far
         outcome = self.whatif.attempt(self.k, change)
         if (outcome is None or outcome.worst_case_v is None or outcome.noise_gain is None
                 or outcome.status != "ok"):
@@ -125,6 +131,16 @@ class _Stage:
                 outcome.worst_case_v >= self.before * (1.0 - 1e-9):
             return None
         return _Candidate(outcome, action, ideal)
+
+
+def own_vos_floor(ctx: StageContext, k: int, noise_gain: float) -> float:
+    """What no suggestion can bring stage k's worst case below: its own Vos through its
+    noise gain, at the worse end of the range (volts). A suggestion must keep the noise
+    gain (within SAME_GAIN), and the worst case adds that term to others that are never
+    negative, so a change whose cut the floor forbids need not be solved."""
+    low, high = ctx.temp_range
+    vos = max(at_temperature(ctx.params[k], temp, high).vos or 0.0 for temp in (low, high))
+    return abs(noise_gain) * (1.0 - SAME_GAIN) * vos * (1.0 - 1e-12)
 
 
 def _scope(ctx: StageContext, k: int) -> str:
