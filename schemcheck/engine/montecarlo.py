@@ -56,7 +56,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from schemcheck.engine.budget import reaching, total_at
+from schemcheck.engine.budget import Figures, reaching, total_at
 from schemcheck.engine.dcerror import Solution, System
 from schemcheck.engine.network import Network
 from schemcheck.engine.params import AtTemperature, OpampParams, at_temperature
@@ -115,19 +115,18 @@ class _Network:
 
 
 def _prepare(network: Network, solution: Solution, params: list[OpampParams], system: System,
-             temp_range: tuple[float, float]) -> _Network:
+             temp_range: tuple[float, float], figures: Figures = at_temperature) -> _Network:
     low, high = temp_range
     solved = {k: reaching(solution, k) for k in system.out_rows if solution.status[k] == "ok"}
     temp = max(sorted({low, high}, reverse=True),
-               key=lambda t: sum(total_at(solution, k, params, t, high, sources)
+               key=lambda t: sum(total_at(solution, k, params, t, high, sources, figures)
                                  for k, sources in solved.items()))
-    at: dict[int, AtTemperature] = {}
     opamps = {j: n for n, j in enumerate(system.component.opamps)}
     mix = np.zeros((len(system.columns), 3 * len(opamps)))
     for c, (j, source) in enumerate(system.columns):
         if source == "unknown":
             continue
-        p = at.get(j) or at.setdefault(j, at_temperature(params[j], temp, high))
+        p = figures(params[j], temp, high)
         z = 3 * opamps[j]
         if source == "vos":
             mix[c, z] = (p.vos or 0.0) / TRUNCATE_SIGMA
@@ -171,11 +170,20 @@ def monte_carlo_run(network: Network, solution: Solution, params: list[OpampPara
     if samples <= 0:
         return run
     nets: list[_Network] = []
+    held: dict[tuple[int, float, float], AtTemperature] = {}  # params lives: ids stay
+
+    def figures(p: OpampParams, temp: float, top: float) -> AtTemperature:
+        key = (id(p), temp, top)
+        found = held.get(key)
+        if found is None:
+            found = held[key] = at_temperature(p, temp, top)
+        return found
+
     for system in solution.systems:
         if system.inverse is None or not system.out_rows:
             run.bounds.update({k: None for k in system.out_rows})
             continue
-        nets.append(_prepare(network, solution, params, system, temp_range))
+        nets.append(_prepare(network, solution, params, system, temp_range, figures))
     too_large = [n for n in nets if _cost(n.shape, solve) * MIN_SAMPLES > work_limit]
     nets = [n for n in nets if _cost(n.shape, solve) * MIN_SAMPLES <= work_limit]
     for net in too_large:
