@@ -40,6 +40,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from schemcheck.checks.context import StageContext
+from schemcheck.engine.budget import Figures
 from schemcheck.engine.eseries import nearest
 from schemcheck.engine.network import Resistor
 from schemcheck.engine.params import at_temperature
@@ -112,7 +113,7 @@ class _Stage:
         self.r_minus = self.s_m / self.s_vos + 0.0
         self.before = whatif.before(k) or 0.0
         self.op = ctx.network.opamps[k]
-        self.floor = own_vos_floor(ctx, k, self.s_vos)
+        self.floor = own_vos_floor(ctx, k, self.s_vos, whatif.figures)
 
     def attempt(self, change: Change, action: str, ideal: float, cut: float
                 ) -> _Candidate | None:
@@ -133,13 +134,14 @@ class _Stage:
         return _Candidate(outcome, action, ideal)
 
 
-def own_vos_floor(ctx: StageContext, k: int, noise_gain: float) -> float:
+def own_vos_floor(ctx: StageContext, k: int, noise_gain: float,
+                  figures: Figures = at_temperature) -> float:
     """What no suggestion can bring stage k's worst case below: its own Vos through its
     noise gain, at the worse end of the range (volts). A suggestion must keep the noise
     gain (within SAME_GAIN), and the worst case adds that term to others that are never
     negative, so a change whose cut the floor forbids need not be solved."""
     low, high = ctx.temp_range
-    vos = max(at_temperature(ctx.params[k], temp, high).vos or 0.0 for temp in (low, high))
+    vos = max(figures(ctx.params[k], temp, high).vos or 0.0 for temp in (low, high))
     return abs(noise_gain) * (1.0 - SAME_GAIN) * vos * (1.0 - 1e-12)
 
 

@@ -158,9 +158,9 @@ class WhatIf:
             self._refs.setdefault(r.ref, []).append(i)
 
     def _worst(self, solution: Solution, k: int) -> float | None:
-        return worst_case(solution, k, self.params, self.temp_range, self._figures)
+        return worst_case(solution, k, self.params, self.temp_range, self.figures)
 
-    def _figures(self, params: OpampParams, temp: float, top: float) -> AtTemperature:
+    def figures(self, params: OpampParams, temp: float, top: float) -> AtTemperature:
         """:func:`at_temperature`, each op-amp's figures worked out once per temperature."""
         key = (id(params), temp, top)
         found = self._at.get(key)
