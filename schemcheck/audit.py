@@ -66,18 +66,24 @@ def _field_names(cls: type) -> tuple[str, ...]:
     return tuple(spec.name for spec in dataclasses.fields(cls))
 
 
-_LEAVES = (str, int, bool, type(None))
+_LEAVES = frozenset((str, int, bool, type(None)))
 
 
 def _non_finite(value: Any, where: str, found: list[str]) -> None:
     """Name in ``found`` every figure of ``value`` (a results object) that is not finite:
     JSON has no NaN or Infinity, and such a figure means nothing (it is written as null)."""
-    if isinstance(value, float):
+    kind = type(value)
+    if kind is float or isinstance(value, float):
         if not math.isfinite(value):
             found.append(where)
         return
-    if dataclasses.is_dataclass(value) and not isinstance(value, type):
-        items: Any = ((name, getattr(value, name)) for name in _field_names(type(value)))
+    if kind is list:
+        items: Any = enumerate(value)
+        path = "{where}[{key}]"
+    elif kind is dict:
+        items, path = value.items(), "{where}.{key}"
+    elif dataclasses.is_dataclass(value) and not isinstance(value, type):
+        items = ((name, getattr(value, name)) for name in _field_names(type(value)))
         path = "{where}.{key}" if where else "{key}"
     elif isinstance(value, dict):
         items, path = value.items(), "{where}.{key}"
@@ -86,8 +92,8 @@ def _non_finite(value: Any, where: str, found: list[str]) -> None:
     else:
         return
     for key, item in items:
-        kind = type(item)
-        if kind in _LEAVES or (kind is float and math.isfinite(item)):
+        child = type(item)
+        if child in _LEAVES or (child is float and math.isfinite(item)):
             continue  # most of a result: nothing to look into
         _non_finite(item, path.format(where=where, key=key), found)
 

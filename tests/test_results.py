@@ -95,3 +95,23 @@ def test_round_trip_through_the_json_form(tmp_path):
     data = to_data(design)
     assert design.stages, "the demo has stages"
     assert to_data(design_from_data(json.loads(json.dumps(data)))) == data
+
+
+def test_figures_that_are_not_finite_are_named_where_they_sit():
+    # The audit names every figure of a stage that is not finite (JSON has no NaN or
+    # Infinity; each is written as null): nested objects by field, lists by index, dicts
+    # by key, finite figures and text left alone.
+    import math
+
+    from schemcheck.audit import _non_finite
+    from schemcheck.results import Contributor, Sensitivity
+
+    found: list[str] = []
+    _non_finite({"sensitivity": Sensitivity(vos=math.inf, ib_plus=1.0),
+                 "contributors": [Contributor("U1", 1, 2.0), Contributor("U2", 1, math.nan)],
+                 "nets": {"plus": "IN", "gain": -math.inf}, "ok": 3.0}, "U1/1", found)
+    assert found == ["U1/1.sensitivity.vos", "U1/1.contributors[1].worst_case_v",
+                     "U1/1.nets.gain"]
+    found = []
+    _non_finite(Sensitivity(ios=math.nan), "", found)
+    assert found == ["ios"]
