@@ -307,6 +307,7 @@ def test_changes_skipped_below_the_own_vos_floor_would_not_have_been_advised(tmp
 
     shortcut = findings()
     monkeypatch.setattr(bias_resistor, "own_vos_floor", lambda *args: 0.0)
+    monkeypatch.setattr(bias_resistor, "wired_floor", lambda *args: 0.0)
     assert findings() == shortcut
     assert any(f for design in shortcut for f in design if f[0].startswith("bias-resistor"))
     monkeypatch.undo()

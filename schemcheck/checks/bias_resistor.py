@@ -25,7 +25,8 @@ elsewhere an added resistor cancels nothing and costs noise (common practice).
 
 Each change is solved (:mod:`schemcheck.engine.variants`), except one that could not pass:
 no change that keeps the noise gain brings the worst case below the stage's own Vos term
-(:func:`own_vos_floor`). Advice is given only where the
+(:func:`own_vos_floor`), and a wire at a + input that holds nothing else leaves the - side's
+bias terms (:func:`wired_floor`). Advice is given only where the
 stage's worst case over temperature falls (by at least :data:`WORTHWHILE` for a value,
 :data:`WORTH_ADDING` for a part added, :data:`NOT_WORTH_A_PART` for a resistor replaced by
 a wire, which is preferred where it does as well as any value), its noise gain is
@@ -115,10 +116,12 @@ class _Stage:
         self.op = ctx.network.opamps[k]
         self.floor = own_vos_floor(ctx, k, self.s_vos, whatif.figures)
 
-    def attempt(self, change: Change, action: str, ideal: float, cut: float
-                ) -> _Candidate | None:
-        if self.floor >= self.before * (1.0 - cut):
-            return None  # no change that keeps the noise gain can cut the error that far
+    def attempt(self, change: Change, action: str, ideal: float, cut: float,
+                floor: float = 0.0) -> _Candidate | None:
+        """``change`` solved and judged; ``floor``: what the change is known to leave at
+        least (volts; the own-Vos floor holds for every change)."""
+        if max(self.floor, floor) >= self.before * (1.0 - cut):
+            return None  # the change cannot cut the error that far: not worth solving
         outcome = self.whatif.attempt(self.k, change)
         if (outcome is None or outcome.worst_case_v is None or outcome.noise_gain is None
                 or outcome.status != "ok"):
@@ -143,6 +146,28 @@ def own_vos_floor(ctx: StageContext, k: int, noise_gain: float,
     low, high = ctx.temp_range
     vos = max(figures(ctx.params[k], temp, high).vos or 0.0 for temp in (low, high))
     return abs(noise_gain) * (1.0 - SAME_GAIN) * vos * (1.0 - 1e-12)
+
+
+def wired_floor(ctx: StageContext, st: _Stage, comp: Resistor) -> float:
+    """What stage k's worst case is at least with ``comp`` (its + input's one resistor, to
+    a rail) replaced by a wire, where that input's net holds nothing else but the input
+    (volts; 0 where it does): the net is then a leaf whose voltage is -R Ib+ alone, so the
+    wire removes the Ib+ terms and nothing else. What is left of the stage's own terms is
+    noise gain x Vos + |s_ib-| Ib + |s_ib-| / 2 Ios at each end of the range (the other
+    op-amps' terms only add to it)."""
+    network = ctx.network
+    lookup = network.lookup()
+    if lookup.pins.get(st.op.plus) != [st.k] or len(lookup.resistors.get(st.op.plus, ())) != 1:
+        return 0.0
+    low, high = ctx.temp_range
+    floor = 0.0
+    for temp in (low, high):
+        p = st.whatif.figures(ctx.params[st.k], temp, high)
+        if p.vos is None or p.ib is None or p.ios is None:
+            return 0.0
+        floor = max(floor, abs(st.s_vos) * p.vos + abs(st.s_m) * p.ib
+                    + abs(st.s_m) / 2 * p.ios)
+    return floor * (1.0 - 1e-9)  # a margin for the rounding of the solve
 
 
 def _scope(ctx: StageContext, k: int) -> str:
@@ -189,7 +214,7 @@ def _advise(ctx: StageContext, st: _Stage) -> Finding | None:
                 candidates.append(found)
         if not coupling:
             wire = st.attempt(Change("wire", comp.ref), "replace-with-wire", 0.0,
-                              NOT_WORTH_A_PART)
+                              NOT_WORTH_A_PART, wired_floor(ctx, st, comp))
     gap = st.r_plus - st.r_minus
     scale = max(st.r_plus, st.r_minus)
     matched = ctx.params[k].bias_currents_matched  # adding parts pays only where Ib tracks
