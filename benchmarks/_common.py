@@ -30,7 +30,16 @@ def best_of(fn: Callable[[], object], repeat: int = 5) -> float:
     return best
 
 
-def stage_sheet(stages: int, seed: int = 3) -> Sheet:
+#: the stages' part figures: Vos dominates (a gain of 11 with 1 mV Vos)
+VOS_DOMINATED = {"Vos": "1mV", "Ib": "20nA", "Ios": "2nA", "TCVos": "2uV/°C"}
+#: bias currents dominate (500 nA through a 47 kΩ compensation resistor that does not
+#: match 10k || 100k): the advice has every suggestion to solve
+BIAS_DOMINATED = {"Vos": "100uV", "Ib": "500nA", "Ios": "50nA", "TCVos": "1uV/°C",
+                  "Input": "bipolar"}
+
+
+def stage_sheet(stages: int, seed: int = 3, fields: dict[str, str] | None = None,
+                rp: str = "9k1") -> Sheet:
     """A sheet of ``stages`` inverting op-amp stages in a grid (op-amp unit, input,
     feedback and compensation resistors, ground symbols), drawn by the demo's stage
     builder so every stage is wired as in the demo design."""
@@ -38,8 +47,8 @@ def stage_sheet(stages: int, seed: int = 3) -> Sheet:
     for i in range(stages):
         x, y = 50.8 + 76.2 * (i % 20), 50.8 + 50.8 * (i // 20)
         stage(sheet, x, y, ref=f"U{i // 2 + 1}", unit=1 + i % 2, value="OPX",
-              fields={"Vos": "1mV", "Ib": "20nA", "Ios": "2nA", "TCVos": "2uV/°C"},
-              ri="10k", rf="100k", rp="9k1",
+              fields=dict(VOS_DOMINATED if fields is None else fields),
+              ri="10k", rf="100k", rp=rp,
               refs=(f"R{3 * i + 1}", f"R{3 * i + 2}", f"R{3 * i + 3}"),
               in_label=f"IN{i}", out_label=f"OUT{i}", in_kind="global_label", out_kind="label")
     return sheet
