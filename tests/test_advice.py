@@ -319,3 +319,23 @@ def test_changes_skipped_below_the_own_vos_floor_would_not_have_been_advised(tmp
     result = run("J1 IN GND", "R1 IN m 10k", "R2 m out 100k", "R3 p GND 9.1k",
                  "U1 p=p m=m out=out Vos=1mV Ib=20nA Ios=0.2nA Input=bipolar")
     assert advice(result) == [] and solved == []
+
+
+def test_a_reference_drawn_twice_names_no_part_to_change():
+    # Two resistors both marked R1: a change "to R1" names no one part, on every path.
+    from schemcheck.engine.dcerror import solve
+    from schemcheck.engine.network import build_network
+    from schemcheck.engine.params import resolve
+    from schemcheck.engine.stages import recognise
+    from schemcheck.engine.variants import Change, WhatIf
+
+    netlist = circuit("J1 IN GND", "R1 IN m 10k", "R2 m out 100k", "R1 p GND 9.1k",
+                      f"U1 p=p m=m out=out {BIPOLAR}")
+    units, skipped = recognise(netlist.parts)
+    network = build_network(netlist, units, skipped)
+    assert [r.ref for r in network.resistors].count("R1") == 2
+    whatif = WhatIf(network, solve(network), [resolve(op.unit.part, {})
+                                               for op in network.opamps], (0.0, 70.0))
+    for change in (Change("value", "R1", 4.7e3), Change("wire", "R1"), Change("remove", "R1"),
+                   Change("value", "R9", 1e3)):
+        assert whatif.attempt(0, change) is None

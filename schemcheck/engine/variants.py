@@ -141,7 +141,9 @@ class WhatIf:
 
     Only the piece of the network a change reaches is solved again (:func:`piece`): the
     other op-amps' figures cannot move, so a change costs the size of its piece, not of
-    the sheet."""
+    the sheet. A new value, or a wire in place of a + input's resistor to a rail where the
+    input's net holds nothing else, keeps the connections (but that net's): the drawn
+    system holding the resistor is changed and inverted afresh."""
 
     def __init__(self, network: Network, solution: Solution, params: list[OpampParams],
                  temp_range: tuple[float, float]) -> None:
@@ -233,7 +235,10 @@ class WhatIf:
             self._placed = {id(r): (index, position)
                             for index, system in enumerate(self.solution.systems)
                             for position, r in enumerate(system.component.resistors)}
-        resistor = self.network.resistors[self._refs[ref][0]]
+        found = self._refs.get(ref, [])
+        if len(found) != 1:
+            return None  # no one part: the full path says so
+        resistor = self.network.resistors[found[0]]
         where = self._placed.get(id(resistor))
         if where is None or self.solution.systems[where[0]].inverse is None:
             return None
@@ -244,8 +249,8 @@ class WhatIf:
         network solved the system holding it: the same connections, so the same statuses
         and the same system with one conductance changed, inverted afresh (what
         :func:`solve` of the changed network does, without finding its connections
-        again), and the op-amps it reaches. None where that does not apply (the change is then
-        solved in full)."""
+        again), and the op-amps it reaches. None where that does not apply (the change is
+        then solved in full)."""
         held = self._held(change.ref) if 0.0 < change.ohms < math.inf else None
         if held is None:
             return None
