@@ -320,10 +320,10 @@ class Piece:
 
 def piece(network: Network, nets: list[str], opamps: list[int] | None = None) -> Piece:
     """The piece of ``network`` holding ``nets`` and the op-amps ``opamps`` (see
-    :class:`Piece`). Every connected part
-    :func:`solve` takes apart lies wholly inside it or wholly outside, with everything its
-    statuses depend on (bias paths, DC feedback), so solving the piece alone gives its
-    op-amps the figures a solve of the whole network gives them."""
+    :class:`Piece`). Every connected part :func:`solve` takes apart lies wholly inside it
+    or wholly outside, with everything its statuses depend on (bias paths, DC feedback),
+    so solving the piece alone gives its op-amps the figures a solve of the whole network
+    gives them."""
     lookup = network.lookup()
     fixed = network.fixed
     held: set[int] = set(opamps or ())
