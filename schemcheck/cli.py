@@ -70,8 +70,10 @@ def _plain_json(data: Any) -> str:
     import json
 
     indent = 2 if sys.stdout.isatty() else None
-    # strict JSON: a NaN or Infinity would be a bug of ours, never written as a number
-    return json.dumps(data, indent=indent, ensure_ascii=False, allow_nan=False)
+    # strict JSON: a NaN or Infinity would be a bug of ours, never written as a number;
+    # plain data is a tree (no container holds itself), so no check for cycles
+    return json.dumps(data, indent=indent, ensure_ascii=False, allow_nan=False,
+                      check_circular=False)
 
 
 def _emit(text: str) -> None:

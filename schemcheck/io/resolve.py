@@ -21,7 +21,6 @@ from __future__ import annotations
 import os
 import re
 import stat
-import tomllib
 from collections.abc import Callable
 
 #: Called with (name as written, candidate path, the sheet naming it) before a child sheet
@@ -131,6 +130,8 @@ def support_files(root: str, given_settings: str | None = None) -> tuple[str, ..
     if settings is None or not os.path.isfile(settings):
         return ()
     out = [normalised(settings)]
+    import tomllib  # here: reading a design's files needs no TOML until a settings file
+
     try:
         name = tomllib.loads(read_small(settings).decode("utf-8-sig")).get("parts_library")
     except (UnicodeDecodeError, tomllib.TOMLDecodeError):

@@ -8,7 +8,6 @@ base folder that file paths are made relative to (SARIF), and returns the text.
 
 from __future__ import annotations
 
-import json
 from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
@@ -44,6 +43,8 @@ def _markdown(report: dict[str, Any], base: str | None) -> str:
 
 
 def _sarif(report: dict[str, Any], base: str | None) -> str:
+    import json
+
     from schemcheck.report.sarif import sarif
 
     return json.dumps(sarif(report, base), indent=2, ensure_ascii=False, allow_nan=False)
