@@ -9,11 +9,19 @@ a schematic of the same stem is its export, not audited twice.
 from __future__ import annotations
 
 import os
+from collections.abc import Callable
 from dataclasses import dataclass
 
 from schemcheck.errors import ParseError
 from schemcheck.io.files import check_allowed, regular_file
-from schemcheck.io.resolve import child_sheet, normalised, read_small, sheet_files, sheet_names
+from schemcheck.io.resolve import (
+    child_names,
+    child_sheet,
+    normalised,
+    read_small,
+    sheet_files,
+    sheet_names,
+)
 
 DESIGN_SUFFIXES = (".kicad_sch", ".net", ".xml")
 NETLIST_SUFFIXES = (".net", ".xml")
@@ -27,11 +35,12 @@ class DesignRef:
     files: tuple[str, ...]
 
 
-def referenced_sheets(path: str) -> list[str]:
+def referenced_sheets(path: str, names: Callable[[str], list[str]] = child_names
+                      ) -> list[str]:
     """Child sheet files named in ``path`` that exist, resolved as the reader resolves
     them (:func:`schemcheck.io.resolve.child_sheet`), the sheet taken as a root."""
     base = os.path.dirname(normalised(path))
-    found = (child_sheet(name, base, base) for name in sheet_names(read_small(path)))
+    found = (child_sheet(name, base, base) for name in names(path))
     return [child for child in found if child is not None]
 
 
@@ -48,10 +57,25 @@ def _allowed_child(written: str, candidate: str, parent: str) -> None:
     check_allowed(candidate, "child sheet file", reference=written, file=parent)
 
 
-def design_files(root: str) -> tuple[str, ...]:
+def design_files(root: str, names: Callable[[str], list[str]] = child_names
+                 ) -> tuple[str, ...]:
     """The root and, recursively, the child sheets it uses (existing ones); a child sheet
     outside what the run may read is refused (:class:`PathNotAllowedError`) unread."""
-    return sheet_files(root, _allowed_child)
+    return sheet_files(root, _allowed_child, names)
+
+
+def _read_once() -> Callable[[str], list[str]]:
+    """:func:`child_names` remembered: one search reads each sheet once (it looked at
+    each three or four times: which sheets are roots, and each design's files)."""
+    known: dict[str, list[str]] = {}
+
+    def names(path: str) -> list[str]:
+        found = known.get(path)
+        if found is None:
+            found = known[path] = child_names(path)
+        return found
+
+    return names
 
 
 def find_designs(paths: list[str]) -> tuple[list[DesignRef], list[ParseError]]:
@@ -59,11 +83,12 @@ def find_designs(paths: list[str]) -> tuple[list[DesignRef], list[ParseError]]:
     that does not exist, or a folder with no schematic or exported netlist in it."""
     problems: list[ParseError] = []
     roots: list[str] = []
+    names = _read_once()
     for path in paths:
         if os.path.isfile(path):
             roots.append(normalised(path))
         elif os.path.isdir(path):
-            found = _roots_in_folder(path)
+            found = _roots_in_folder(path, names)
             if not found:
                 problems.append(ParseError(
                     "expected a KiCad schematic (.kicad_sch) or a netlist exported by the "
@@ -79,7 +104,7 @@ def find_designs(paths: list[str]) -> tuple[list[DesignRef], list[ParseError]]:
             problems.append(ParseError("expected a design file or a folder, found nothing "
                                        "(no such file or folder)", file=path))
     unique = list(dict.fromkeys(roots))
-    return [DesignRef(root, design_files(root)) for root in unique], problems
+    return [DesignRef(root, design_files(root, names)) for root in unique], problems
 
 
 def is_exported_netlist(path: str) -> bool:
@@ -92,7 +117,8 @@ def is_exported_netlist(path: str) -> bool:
     return head.startswith(b"<") and b"<export" in head
 
 
-def _roots_in_folder(folder: str) -> list[str]:
+def _roots_in_folder(folder: str, names: Callable[[str], list[str]] = child_names
+                     ) -> list[str]:
     """Root sheets and exported netlists under ``folder``, in folder order. A netlist
     beside a schematic of the same name is that schematic's export: not audited twice."""
     found: list[str] = []
@@ -112,18 +138,18 @@ def _roots_in_folder(folder: str) -> list[str]:
                 exported_from = os.path.splitext(name)[0] + ".kicad_sch"
                 if exported_from not in schematics and is_exported_netlist(full):
                     found.append(full)
-    children = {sheet: referenced_sheets(sheet) for sheet in sheets}
+    children = {sheet: referenced_sheets(sheet, names) for sheet in sheets}
     referenced = {child for named in children.values() for child in named}
     candidates = {s for s in sheets if s not in referenced or s in projects}
     # A child found only through its root's folder is part of that root's design too.
-    used = {child for root in candidates for child in sheet_files(root)[1:]}
+    used = {child for root in candidates for child in sheet_files(root, names=names)[1:]}
     roots = {s for s in candidates if s not in used or s in projects}
     # Sheets no root reaches form loops (A -> B -> A, a sheet placing itself). Each loop
     # is audited through its first sheet, whose audit names the loop, instead of the
     # folder silently holding no design.
     reached: set[str] = set()
     for root in [s for s in sheets if s in roots]:
-        reached.update(sheet_files(root))
+        reached.update(sheet_files(root, names=names))
     for sheet in sheets:
         if sheet in reached:
             continue

@@ -86,10 +86,18 @@ def read_small(path: str) -> bytes:
         return b""
 
 
-def sheet_files(root: str, check: Check | None = None) -> tuple[str, ...]:
+def child_names(path: str) -> list[str]:
+    """The child sheet file names the sheet at ``path`` names (nothing where it is not a
+    regular file of a readable size)."""
+    return sheet_names(read_small(path))
+
+
+def sheet_files(root: str, check: Check | None = None,
+                names: Callable[[str], list[str]] = child_names) -> tuple[str, ...]:
     """The root and, recursively, every child sheet file it uses that exists, each once
     (the root first). A netlist file is a design of one file. ``check``: see
-    :func:`child_sheet`."""
+    :func:`child_sheet`; ``names``: a sheet's child sheet names (:func:`child_names`, or
+    a memo of it)."""
     root = normalised(root)
     if not root.endswith(".kicad_sch"):
         return (root,)
@@ -99,7 +107,7 @@ def sheet_files(root: str, check: Check | None = None) -> tuple[str, ...]:
     while pending:
         parent = pending.pop()
         parent_dir = os.path.dirname(parent)
-        for name in sheet_names(read_small(parent)):
+        for name in names(parent):
             child = child_sheet(name, parent_dir, root_dir, check, parent)
             if child is not None and child not in seen:
                 seen.append(child)
