@@ -215,7 +215,8 @@ class Network:
     _lookup: NetLookup | None = None
 
     def lookup(self) -> NetLookup:
-        """What touches each net, other than resistors (indexed on first use)."""
+        """What touches each net, by net (indexed on first use; the network is not
+        changed after it is built: a changed one is a :meth:`variant`)."""
         if self._lookup is None:
             self._lookup = NetLookup.of(self)
         return self._lookup
