@@ -260,3 +260,24 @@ def test_bias_current_range_of_the_trade(ib):
     units, skipped = recognise(netlist.parts)
     s = solve(build_network(netlist, units, skipped)).own(0)
     np.testing.assert_allclose(s["ib_minus"], 100e3, rtol=1e-12)
+
+
+def test_tied_outputs_beside_a_network_of_the_same_count_are_solved():
+    # Two outputs tied on one net count as two unknowns but are one row of the matrix; a
+    # second network whose count is the same must not be stacked with it (it crashed the
+    # audit: arrays of different shapes). The tied pair is reported as such, the other
+    # stage solved: an inverting stage, noise gain 1 + Rf/Ri = 1 + R3/R7 = 2 (handbook
+    # inverting amplifier; R4-R5-R6 only load its output).
+    from schemcheck.audit import audit_netlist
+    from schemcheck.settings import Settings
+
+    part = "Vos=1mV Ib=10nA Ios=1nA"
+    result = audit_netlist(circuit(
+        "J1 IN GND", f"U1 p=GND m=m1 out=o {part}", f"U2 p=GND m=m2 out=o {part}",
+        "R1 m1 o 10k", "R2 m2 o 10k", "R9 IN m1 10k", f"U3 p=GND m=a out=b {part}",
+        "R3 a b 10k", "R4 b c 10k", "R5 c d 10k", "R6 d GND 10k", "R7 IN a 10k"),
+        Settings(mc_samples=0))
+    status = {s.id: s.status for s in result.stages}
+    assert status == {"U1/1": "outputs-tied", "U2/1": "outputs-tied", "U3/1": "ok"}
+    u3 = next(s for s in result.stages if s.id == "U3/1")
+    assert u3.noise_gain == pytest.approx(2.0, rel=1e-12)

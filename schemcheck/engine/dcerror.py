@@ -294,7 +294,9 @@ def solve(network: Network) -> Solution:
             continue
         system = build_system(network, component, status)
         solution.systems.append(system)
-        by_size.setdefault(unknowns, []).append(system)
+        # stacked by the matrix's own size: tied outputs share one row, so it can be
+        # smaller than the count above (which only guards the size)
+        by_size.setdefault(system.base.shape[0], []).append(system)
     for systems in by_size.values():
         for system, inverse in zip(systems, _inverses([s.matrix() for s in systems])):
             read_inverse(system, inverse, solution)
