@@ -26,7 +26,8 @@ elsewhere an added resistor cancels nothing and costs noise (common practice).
 Each change is solved (:mod:`schemcheck.engine.variants`), except one that could not pass:
 no change that keeps the noise gain brings the worst case below the stage's own Vos term
 (:func:`own_vos_floor`), and a wire at a + input that holds nothing else leaves the - side's
-bias terms (:func:`wired_floor`). Advice is given only where the
+bias terms (:func:`wired_floor`); both only where no figure of the design is below 0 at
+either end of the range. Advice is given only where the
 stage's worst case over temperature falls (by at least :data:`WORTHWHILE` for a value,
 :data:`WORTH_ADDING` for a part added, :data:`NOT_WORTH_A_PART` for a resistor replaced by
 a wire, which is preferred where it does as well as any value), its noise gain is
@@ -104,7 +105,7 @@ class _Candidate:
 class _Stage:
     """The advice for one stage."""
 
-    def __init__(self, ctx: StageContext, whatif: WhatIf, k: int) -> None:
+    def __init__(self, ctx: StageContext, whatif: WhatIf, k: int, floors: bool) -> None:
         self.ctx = ctx
         self.whatif = whatif
         self.k = k
@@ -114,7 +115,8 @@ class _Stage:
         self.r_minus = self.s_m / self.s_vos + 0.0
         self.before = whatif.before(k) or 0.0
         self.op = ctx.network.opamps[k]
-        self.floor = own_vos_floor(ctx, k, self.s_vos, whatif.figures)
+        self.floors = floors  # every term of every worst case is never negative
+        self.floor = own_vos_floor(ctx, k, self.s_vos, whatif.figures) if floors else 0.0
 
     def attempt(self, change: Change, action: str, ideal: float, cut: float,
                 floor: float = 0.0) -> _Candidate | None:
@@ -137,6 +139,19 @@ class _Stage:
         return _Candidate(outcome, action, ideal)
 
 
+def _figures_never_negative(ctx: StageContext, whatif: WhatIf) -> bool:
+    """Whether every op-amp's Vos, Ib and Ios are at least 0 at both ends of the range:
+    the floors below rest on every term of a worst case being at least 0, which a figure
+    extrapolated past its hot value can break (then every change is solved)."""
+    low, high = ctx.temp_range
+    for params in ctx.params:
+        for temp in (low, high):
+            p = whatif.figures(params, temp, high)
+            if any(v is not None and not v >= 0.0 for v in (p.vos, p.ib, p.ios)):
+                return False
+    return True
+
+
 def own_vos_floor(ctx: StageContext, k: int, noise_gain: float,
                   figures: Figures = at_temperature) -> float:
     """What no suggestion can bring stage k's worst case below: its own Vos through its
@@ -157,7 +172,8 @@ def wired_floor(ctx: StageContext, st: _Stage, comp: Resistor) -> float:
     op-amps' terms only add to it)."""
     network = ctx.network
     lookup = network.lookup()
-    if lookup.pins.get(st.op.plus) != [st.k] or len(lookup.resistors.get(st.op.plus, ())) != 1:
+    if (not st.floors or lookup.pins.get(st.op.plus) != [st.k]
+            or len(lookup.resistors.get(st.op.plus, ())) != 1):
         return 0.0
     low, high = ctx.temp_range
     floor = 0.0
@@ -167,7 +183,7 @@ def wired_floor(ctx: StageContext, st: _Stage, comp: Resistor) -> float:
             return 0.0
         floor = max(floor, abs(st.s_vos) * p.vos + abs(st.s_m) * p.ib
                     + abs(st.s_m) / 2 * p.ios)
-    return floor * (1.0 - 1e-9)  # a margin for the rounding of the solve
+    return floor * (1.0 - 1e-6)  # a margin for the rounding of the solve
 
 
 def _scope(ctx: StageContext, k: int) -> str:
@@ -186,11 +202,12 @@ def _noise(ctx: StageContext, ohms: float) -> tuple[float, str]:
 def check_bias_resistor(ctx: StageContext) -> list[Finding]:
     findings = []
     whatif = WhatIf(ctx.network, ctx.solution, ctx.params, ctx.temp_range)
+    floors = _figures_never_negative(ctx, whatif)
     for k in range(len(ctx.network.opamps)):
         own = ctx.solution.own(k)
         if own is None or not ctx.params[k].complete or own["vos"] == 0:
             continue
-        stage = _Stage(ctx, whatif, k)
+        stage = _Stage(ctx, whatif, k, floors)
         if stage.before <= 0:
             continue
         finding = _advise(ctx, stage)
