@@ -362,3 +362,24 @@ def test_a_figure_extrapolated_below_zero_solves_every_change():
     finally:
         bias_resistor.own_vos_floor, bias_resistor.wired_floor = original
     assert [(f.rule, f.message) for f in given] == [(f.rule, f.message) for f in every]
+
+
+def test_a_wire_at_an_input_whose_stage_drives_a_rail_is_solved_in_full():
+    # An op-amp whose output sits on a fixed net has no row of its own: wiring its +
+    # input's resistor leaves nothing of its system. The quick path steps aside and the
+    # change is solved as the whole network is (found by a reviewer: it crashed).
+    from types import SimpleNamespace
+
+    from schemcheck.engine.dcerror import solve
+    from schemcheck.engine.network import Network, OpampNode, Resistor
+    from schemcheck.engine.params import OpampParams
+    from schemcheck.engine.variants import Change, WhatIf, apply
+
+    unit = SimpleNamespace(part=SimpleNamespace(ref="U1", unit_count=1, unit=1), name="U1")
+    network = Network([Resistor("R1", "GND", "p", 10e3, 0.01, "default")],
+                      [OpampNode(unit, "p", "GND", "GND")], {"GND": "rail"}, {})
+    solution = solve(network)
+    whole = solve(apply(network, Change("wire", "R1")))
+    outcome = WhatIf(network, solution, [OpampParams(vos=1e-3, ib=1e-9, ios=1e-10)],
+                     (0.0, 70.0)).attempt(0, Change("wire", "R1"))
+    assert outcome is not None and outcome.solution.status == whole.status == ["output-fixed"]

@@ -37,15 +37,18 @@ is at the middle of one of 65536 equal steps across its tolerance band, a parame
 the quantile of the middle of one of 65536 equal steps of probability (a table). The
 draws come from the seed and the network's shape (unknowns, resistors, sources, outputs)
 alone: networks of one shape share them, so a stage's bound does not move when a stage
-of another network is added to the design, two identical stages with networks of their
-own get the same bound, and the products of a block of networks with the draws are one
-matrix product each.
+of another network is added to the design (beyond the float32 rounding of work shared in a
+block, about 1e-7, and unless the work limit cuts the samples), two identical stages with
+networks of their own get the same bound, and the products of a block of networks with
+the draws are one matrix product each.
 
 Bounded resources: samples are drawn and solved in chunks of about ``CHUNK_VALUES``
-numbers, and the percentile keeps only the upper tail it needs, so memory does not grow
-with the number of samples or stages. Where the work for the requested samples exceeds
-``WORK_LIMIT``, fewer samples are used and a note says so; a network too large for even
-``MIN_SAMPLES`` samples gets no Monte Carlo figure, with a note.
+numbers, and the percentile keeps only the upper tail it needs (0.3 % of the samples, for
+the networks of a segment at once), so the arrays do not grow with the number of samples
+or stages and the tails grow only with their product, which the work limit bounds. Where
+the work for the requested samples exceeds ``WORK_LIMIT``, fewer samples are used and a
+note says so; a network too large for even ``MIN_SAMPLES`` samples gets no Monte Carlo
+figure, with a note.
 """
 
 from __future__ import annotations
@@ -473,10 +476,10 @@ class _Model:
         q = (across.reshape(-1, across.shape[2]) @ draws).reshape(count, -1, n)  # (G, n_res, n)
         product = np.empty_like(q)
         known = self.terms[block]
-        if max_iterations and (known >= 0).all():
+        if max_iterations and (known >= 0).all() and known.max() <= max_iterations:
             # the series is shown to settle within `known` terms: no test on the way
             u = q
-            for _ in range(min(int(known.max()), max_iterations)):
+            for _ in range(int(known.max())):
                 np.multiply(relative, u, out=product)
                 u = np.matmul(coupling, product)
                 np.subtract(q, u, out=u)

@@ -288,8 +288,9 @@ class WhatIf:
         op = self.network.opamps[pins[0]]
         system = self.solution.systems[index]
         row = system.net_rows.get(net)
-        if op.plus != net or op.minus == net or op.out == net or row is None:
-            return None
+        if (op.plus != net or op.minus == net or op.out == net or row is None
+                or pins[0] not in system.out_rows):
+            return None  # not a + input of a solved stage whose output is a row
         keep = [i for i in range(system.base.shape[0]) if i != row]
 
         def moved(i: int) -> int:
