@@ -289,6 +289,10 @@ def _current_at(at25: float | None, hot: float | None, t_hot: float, temp: float
         return at25
     try:
         if hot is not None and t_hot > 25.0 and hot > 0 and at25 > 0:
+            if temp > t_hot and hot < at25:
+                # past the last figure given a falling current is held there: a maximum
+                # is not extrapolated down (linearly it would cross zero)
+                return hot
             fraction = (temp - 25.0) / (t_hot - 25.0)
             if fet:
                 return at25 * (hot / at25) ** fraction
