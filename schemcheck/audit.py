@@ -142,10 +142,10 @@ def audit_netlist(netlist: Netlist, settings: Settings,
     resolved: dict[tuple[Any, ...], OpampParams] = {}  # what reads alike resolves alike
     for op in network.opamps:
         part = op.unit.part
-        # everything resolve reads of a part (its reference only names it in an error)
+        # everything resolve reads of a part (its reference only names it in an error);
+        # the fields in their order, as a field is looked up by the first of its spellings
         key = (part.value, part.lib_id, part.description, part.keywords,
-               tuple(sorted((k, v) for k, v in part.fields.items()
-                            if k.casefold() != "reference")))
+               tuple((k, v) for k, v in part.fields.items() if k.casefold() != "reference"))
         p = resolved.get(key)
         if p is None:
             try:
