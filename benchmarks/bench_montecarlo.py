@@ -21,12 +21,8 @@ from __future__ import annotations
 import numpy as np
 from _common import best_of
 
-from schemcheck.engine.dcerror import solve
 from schemcheck.engine.montecarlo import monte_carlo_run
-from schemcheck.engine.network import build_network
-from schemcheck.engine.params import resolve
-from schemcheck.engine.stages import recognise
-from tests.circuits import circuit
+from tests.circuits import analysed, circuit
 from tests.test_montecarlo import CASES
 
 SAMPLES = 100_000
@@ -35,13 +31,7 @@ SEEDS = range(1, 6)
 
 
 def engine(lines: list[str]):
-    netlist = circuit(*lines)
-    units, skipped = recognise(netlist.parts)
-    network = build_network(netlist, units, skipped)
-    params = [resolve(op.unit.part, {}) for op in network.opamps]
-    for op, p in zip(network.opamps, params):
-        op.aol = p.aol
-    return network, solve(network), params
+    return analysed(circuit(*lines))
 
 
 def one_stage() -> None:

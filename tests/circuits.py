@@ -78,3 +78,19 @@ def circuit(*lines: str) -> Netlist:
     out_nets = tuple(Net(name, tuple(nodes), True, name in POWER, (),
                          "power" if name in POWER else "label") for name, nodes in nets.items())
     return Netlist(nets=out_nets, parts=tuple(parts), source="test", format="test")
+
+
+def analysed(netlist: Netlist):
+    """``netlist``'s DC network (op-amp figures from their fields, finite gains set), its
+    solution and the figures: what the engine's tests start from."""
+    from schemcheck.engine.dcerror import solve
+    from schemcheck.engine.network import build_network
+    from schemcheck.engine.params import resolve
+    from schemcheck.engine.stages import recognise
+
+    units, skipped = recognise(netlist.parts)
+    network = build_network(netlist, units, skipped)
+    params = [resolve(op.unit.part, {}) for op in network.opamps]
+    for op, p in zip(network.opamps, params):
+        op.aol = p.aol
+    return network, solve(network), params

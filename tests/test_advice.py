@@ -19,7 +19,7 @@ from schemcheck.audit import audit_netlist
 from schemcheck.engine.variants import BOLTZMANN, thermal_noise
 from schemcheck.settings import Settings
 
-from .circuits import circuit
+from .circuits import analysed, circuit
 
 #: An invented bipolar part with a large bias current (the issue's follower: about 66 mV).
 BIG_IB = "Vos=1mV Ib=800nA Ios=50nA Input=bipolar"
@@ -212,9 +212,7 @@ def test_the_piece_a_change_reaches_solves_as_the_whole_network_does(tmp_path):
     # the same, for every kind of change on every part, over the engine's circuits and
     # seeded random circuits of every family.
     from schemcheck.circuit.load import load_netlist
-    from schemcheck.engine.dcerror import piece, solve
-    from schemcheck.engine.network import build_network
-    from schemcheck.engine.stages import recognise
+    from schemcheck.engine.dcerror import piece
     from schemcheck.engine.variants import Change
 
     from .draw_circuits import draw
@@ -231,9 +229,7 @@ def test_the_piece_a_change_reaches_solves_as_the_whole_network_does(tmp_path):
                             "R7 p3 GND 10k", "U3 p=p3 m=o3 out=o3", "R8 x GND 1k"))
     compared = measured = 0
     for netlist in netlists:
-        units, skipped = recognise(netlist.parts)
-        network = build_network(netlist, units, skipped)
-        solution = solve(network)
+        network, solution, _ = analysed(netlist)
         changes = []
         for r in network.resistors:
             changes += [Change("value", r.ref, r.ohms * 3.3), Change("remove", r.ref),
@@ -323,19 +319,13 @@ def test_changes_skipped_below_the_own_vos_floor_would_not_have_been_advised(tmp
 
 def test_a_reference_drawn_twice_names_no_part_to_change():
     # Two resistors both marked R1: a change "to R1" names no one part, on every path.
-    from schemcheck.engine.dcerror import solve
-    from schemcheck.engine.network import build_network
-    from schemcheck.engine.params import resolve
-    from schemcheck.engine.stages import recognise
     from schemcheck.engine.variants import Change, WhatIf
 
-    netlist = circuit("J1 IN GND", "R1 IN m 10k", "R2 m out 100k", "R1 p GND 9.1k",
-                      f"U1 p=p m=m out=out {BIPOLAR}")
-    units, skipped = recognise(netlist.parts)
-    network = build_network(netlist, units, skipped)
+    network, solution, params = analysed(circuit(
+        "J1 IN GND", "R1 IN m 10k", "R2 m out 100k", "R1 p GND 9.1k",
+        f"U1 p=p m=m out=out {BIPOLAR}"))
     assert [r.ref for r in network.resistors].count("R1") == 2
-    whatif = WhatIf(network, solve(network), [resolve(op.unit.part, {})
-                                               for op in network.opamps], (0.0, 70.0))
+    whatif = WhatIf(network, solution, params, (0.0, 70.0))
     for change in (Change("value", "R1", 4.7e3), Change("wire", "R1"), Change("remove", "R1"),
                    Change("value", "R9", 1e3)):
         assert whatif.attempt(0, change) is None

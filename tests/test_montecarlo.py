@@ -36,7 +36,7 @@ from schemcheck.io.partslib import load_parts_library
 from schemcheck.report.json import to_data
 from schemcheck.settings import Settings
 
-from .circuits import circuit
+from .circuits import analysed, circuit
 from .conftest import FIXTURES
 from .test_dcerror import CIRCUITS, sympy_sensitivities
 
@@ -88,15 +88,10 @@ def audit(netlist, solve_with, samples, library=None, **settings):
                                            **settings), library)
 
 
-def bounds(lines, solve_with, samples):
-    netlist = circuit(*lines)
-    units, skipped = recognise(netlist.parts)
-    network = build_network(netlist, units, skipped)
-    params = [resolve(op.unit.part, {}) for op in network.opamps]
-    for op, p in zip(network.opamps, params):
-        op.aol = p.aol
-    run = mc.monte_carlo_run(network, solve(network), params, (0.0, 70.0), samples, 11,
-                             solve_with)
+def bounds(lines, solve_with, samples, **options):
+    network, solution, params = analysed(circuit(*lines))
+    run = mc.monte_carlo_run(network, solution, params, (0.0, 70.0), samples, 11,
+                             solve_with, **options)
     return [run.bounds[k] for k in sorted(run.bounds)]
 
 
@@ -128,13 +123,7 @@ def test_update_holds_one_percent_on_the_demo():
 
 
 def prepared(lines):
-    netlist = circuit(*lines)
-    units, skipped = recognise(netlist.parts)
-    network = build_network(netlist, units, skipped)
-    params = [resolve(op.unit.part, {}) for op in network.opamps]
-    for op, p in zip(network.opamps, params):
-        op.aol = p.aol
-    solution = solve(network)
+    network, solution, params = analysed(circuit(*lines))
     assert len(solution.systems) == 1
     net = mc._prepare(network, solution, params, solution.systems[0], (25.0, 25.0))
     full = mc._Full([net])
@@ -401,12 +390,5 @@ def test_fewer_terms_allowed_than_a_series_needs_are_finished_by_the_full_solve(
     lines = [line.format(t="10%") for line in BIAS_CANCELLED]
     network, net, full, model = prepared(lines)
     assert model.terms[0] > 1
-    full_bound = bounds(lines, "full", 3000)
-    netlist = circuit(*lines)
-    units, skipped = recognise(netlist.parts)
-    network = build_network(netlist, units, skipped)
-    params = [resolve(op.unit.part, {}) for op in network.opamps]
-    run = mc.monte_carlo_run(network, solve(network), params, (0.0, 70.0), 3000, 11,
-                             "update", max_iterations=1)
-    got = [run.bounds[k] for k in sorted(run.bounds)]
-    assert got == pytest.approx(full_bound, rel=1e-4)
+    assert bounds(lines, "update", 3000, max_iterations=1) == pytest.approx(
+        bounds(lines, "full", 3000), rel=1e-4)
