@@ -74,15 +74,21 @@ def _values(ideal: float) -> str:
     return f"E96 {_ohms(nearest(ideal, 'E96'))}, E24 {_ohms(nearest(ideal, 'E24'))}"
 
 
-def compensation_resistor(ctx: StageContext, k: int) -> Resistor | None:
-    """The one resistor from the + input to a rail, when that is all the + input has."""
+def _lone_plus_resistor(ctx: StageContext, k: int) -> tuple[Resistor, str | None] | None:
+    """The + input's one resistor and why its far end is fixed (None: not fixed), where
+    the + input has exactly one."""
     op = ctx.network.opamps[k]
     at_plus = ctx.network.resistors_at(op.plus)
     if len(at_plus) != 1:
         return None
     r = at_plus[0]
-    other = r.b if r.a == op.plus else r.a
-    return r if ctx.network.fixed.get(other) == "rail" else None
+    return r, ctx.network.fixed.get(r.b if r.a == op.plus else r.a)
+
+
+def compensation_resistor(ctx: StageContext, k: int) -> Resistor | None:
+    """The one resistor from the + input to a rail, when that is all the + input has."""
+    found = _lone_plus_resistor(ctx, k)
+    return found[0] if found is not None and found[1] == "rail" else None
 
 
 def coupled_input(ctx: StageContext, net: str) -> list[str]:
@@ -279,14 +285,8 @@ def _after(candidate: _Candidate) -> float:
 def _series_source(ctx: StageContext, k: int) -> Resistor | None:
     """The one resistor at the + input where it comes from a source (a connector, a driven
     net): the input's source resistance."""
-    op = ctx.network.opamps[k]
-    at_plus = ctx.network.resistors_at(op.plus)
-    if len(at_plus) != 1:
-        return None
-    r = at_plus[0]
-    other = r.b if r.a == op.plus else r.a
-    why = ctx.network.fixed.get(other)
-    return r if why is not None and why != "rail" else None
+    found = _lone_plus_resistor(ctx, k)
+    return found[0] if found is not None and found[1] not in (None, "rail") else None
 
 
 def _lower_bias_return(ctx: StageContext, st: _Stage, comp: Resistor) -> _Candidate | None:
