@@ -41,7 +41,9 @@ class StageBudget:
     contributors: list[dict] = field(default_factory=list)
 
 
-def _terms(solution: Solution, k: int, j: int, p: AtTemperature) -> list[float] | None:
+def error_terms(solution: Solution, k: int, j: int, p: AtTemperature) -> list[float] | None:
+    """Op-amp j's Vos, Ib and Ios terms at op-amp k's output at their worst signs (volts),
+    with j's figures ``p``; None where a figure is missing."""
     sens = solution.sensitivity[k]
     s_vos = sens.get((j, "vos"), 0.0)
     s_p = sens.get((j, "ib_plus"), 0.0)
@@ -66,7 +68,7 @@ def stage_budget(solution: Solution, k: int, params: list[OpampParams],
     low, high = temp_range
     sources = reaching(solution, k)
     at25 = {j: at_temperature(params[j], 25.0, high) for j in sources}
-    own = _terms(solution, k, k, at25[k])
+    own = error_terms(solution, k, k, at25[k])
     if own is not None:
         budget.worst_case_own_v = sum(own)
         budget.rss_own_v = math.sqrt(sum(t * t for t in own))
@@ -74,7 +76,7 @@ def stage_budget(solution: Solution, k: int, params: list[OpampParams],
         return budget
     total: list[float] = []
     for j in sources:
-        terms = _terms(solution, k, j, at25[j])
+        terms = error_terms(solution, k, j, at25[j])
         if terms is None:  # an op-amp without parameters reaches this output
             budget.contributors = []
             return budget
@@ -122,7 +124,7 @@ def total_at(solution: Solution, k: int, params: list[OpampParams], temp: float,
     """Worst-case total at op-amp k's output at ``temp`` (incomplete parts count 0)."""
     value = 0.0
     for j in reaching(solution, k) if sources is None else sources:
-        terms = _terms(solution, k, j, at(params[j], temp, range_top))
+        terms = error_terms(solution, k, j, at(params[j], temp, range_top))
         value += sum(terms or [])
     return value
 

@@ -24,9 +24,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from schemcheck.engine.budget import reaching, total_at
+from schemcheck.engine.budget import error_terms, reaching, total_at
 from schemcheck.engine.dcerror import Solution
-from schemcheck.engine.params import AtTemperature, OpampParams, at_temperature
+from schemcheck.engine.params import OpampParams, at_temperature
 
 #: intervals across the range: 2 °C steps over the default 0 to 70 °C
 SWEEP_INTERVALS = 35
@@ -59,16 +59,6 @@ def sweep_temperatures(temp_range: tuple[float, float], params: list[OpampParams
     return sorted(temps)
 
 
-def _terms(solution: Solution, k: int, j: int, p: AtTemperature) -> tuple[float, ...] | None:
-    sens = solution.sensitivity[k]
-    s_vos = sens.get((j, "vos"), 0.0)
-    s_p = sens.get((j, "ib_plus"), 0.0)
-    s_m = sens.get((j, "ib_minus"), 0.0)
-    if p.vos is None or p.ib is None or p.ios is None:
-        return None
-    return abs(s_vos) * p.vos, abs(s_p + s_m) * p.ib, abs(s_p - s_m) / 2 * p.ios
-
-
 def stage_sweep(solution: Solution, k: int, params: list[OpampParams],
                 temp_range: tuple[float, float], temps: list[float]) -> Sweep | None:
     """Worst case and RSS of op-amp k's output at each of ``temps`` (°C); None where its
@@ -82,7 +72,7 @@ def stage_sweep(solution: Solution, k: int, params: list[OpampParams],
     for temp in temps:
         terms: list[float] = []
         for j in sources:
-            found = _terms(solution, k, j, at_temperature(params[j], temp, high))
+            found = error_terms(solution, k, j, at_temperature(params[j], temp, high))
             if found is None:
                 return None
             terms.extend(found)
