@@ -94,6 +94,21 @@ def stage_budget(solution: Solution, k: int, params: list[OpampParams],
 Figures = Callable[[OpampParams, float, float], AtTemperature]
 
 
+def figures_once() -> Figures:
+    """:func:`at_temperature` remembered: each op-amp's figures worked out once per
+    temperature, for one run (keyed by the parameters' identity: they must live as long)."""
+    held: dict[tuple[int, float, float], AtTemperature] = {}
+
+    def figures(params: OpampParams, temp: float, top: float) -> AtTemperature:
+        key = (id(params), temp, top)
+        found = held.get(key)
+        if found is None:
+            found = held[key] = at_temperature(params, temp, top)
+        return found
+
+    return figures
+
+
 def worst_over_range(solution: Solution, k: int, params: list[OpampParams],
                      temp_range: tuple[float, float], at: Figures = at_temperature
                      ) -> float | None:

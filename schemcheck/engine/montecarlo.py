@@ -59,10 +59,10 @@ from functools import lru_cache
 
 import numpy as np
 
-from schemcheck.engine.budget import Figures, reaching, total_at
+from schemcheck.engine.budget import Figures, figures_once, reaching, total_at
 from schemcheck.engine.dcerror import Solution, System
 from schemcheck.engine.network import Network
-from schemcheck.engine.params import AtTemperature, OpampParams, at_temperature
+from schemcheck.engine.params import OpampParams, at_temperature
 
 MC_PERCENTILE = 99.7
 SOLVES = ("update", "full")
@@ -173,15 +173,7 @@ def monte_carlo_run(network: Network, solution: Solution, params: list[OpampPara
     if samples <= 0:
         return run
     nets: list[_Network] = []
-    held: dict[tuple[int, float, float], AtTemperature] = {}  # params lives: ids stay
-
-    def figures(p: OpampParams, temp: float, top: float) -> AtTemperature:
-        key = (id(p), temp, top)
-        found = held.get(key)
-        if found is None:
-            found = held[key] = at_temperature(p, temp, top)
-        return found
-
+    figures = figures_once()
     for system in solution.systems:
         if system.inverse is None or not system.out_rows:
             run.bounds.update({k: None for k in system.out_rows})

@@ -14,7 +14,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from schemcheck.engine.budget import Figures, total_at, worst_over_range
+from schemcheck.engine.budget import Figures, figures_once, total_at, worst_over_range
 from schemcheck.engine.dcerror import (
     Component,
     Piece,
@@ -27,7 +27,7 @@ from schemcheck.engine.dcerror import (
     splice,
 )
 from schemcheck.engine.network import Network, Resistor
-from schemcheck.engine.params import AtTemperature, OpampParams, at_temperature
+from schemcheck.engine.params import OpampParams, at_temperature
 
 #: Boltzmann's constant, J/K (exact since the 2019 SI redefinition, BIPM SI Brochure 9th ed.)
 BOLTZMANN = 1.380649e-23
@@ -154,21 +154,14 @@ class WhatIf:
         self._before: dict[int, float | None] = {}
         self._placed: dict[int, tuple[int, int]] | None = None  # resistor -> system, place
         self._pieces: dict[int, Piece] = {}  # resistor index -> the piece it reaches
-        self._at: dict[tuple[int, float, float], AtTemperature] = {}  # held: params lives
+        #: :func:`at_temperature`, each op-amp's figures worked out once per temperature
+        self.figures: Figures = figures_once()
         self._refs: dict[str, list[int]] = {}
         for i, r in enumerate(network.resistors):
             self._refs.setdefault(r.ref, []).append(i)
 
     def _worst(self, solution: Solution, k: int) -> float | None:
         return worst_case(solution, k, self.params, self.temp_range, self.figures)
-
-    def figures(self, params: OpampParams, temp: float, top: float) -> AtTemperature:
-        """:func:`at_temperature`, each op-amp's figures worked out once per temperature."""
-        key = (id(params), temp, top)
-        found = self._at.get(key)
-        if found is None:
-            found = self._at[key] = at_temperature(params, temp, top)
-        return found
 
     def before(self, k: int) -> float | None:
         """Stage k's worst case as drawn (volts; see :func:`worst_case`)."""
