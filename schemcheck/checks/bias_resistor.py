@@ -46,7 +46,7 @@ from schemcheck.engine.budget import Figures
 from schemcheck.engine.eseries import nearest
 from schemcheck.engine.network import Resistor
 from schemcheck.engine.params import at_temperature
-from schemcheck.engine.variants import Change, Outcome, WhatIf, thermal_noise
+from schemcheck.engine.variants import Change, Outcome, WhatIf, leaf_input, thermal_noise
 from schemcheck.model import Finding
 from schemcheck.units import format_si
 
@@ -176,10 +176,7 @@ def wired_floor(ctx: StageContext, st: _Stage, comp: Resistor) -> float:
     wire removes the Ib+ terms and nothing else. What is left of the stage's own terms is
     noise gain x Vos + |s_ib-| Ib + |s_ib-| / 2 Ios at each end of the range (the other
     op-amps' terms only add to it)."""
-    network = ctx.network
-    lookup = network.lookup()
-    if (not st.floors or lookup.pins.get(st.op.plus) != [st.k]
-            or len(lookup.resistors.get(st.op.plus, ())) != 1):
+    if not st.floors or leaf_input(ctx.network, st.op.plus) != st.k:
         return 0.0
     low, high = ctx.temp_range
     floor = 0.0

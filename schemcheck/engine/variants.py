@@ -106,6 +106,17 @@ def _series(network: Network, change: Change) -> Network | None:
     return network.variant(resistors=resistors, opamps=opamps)
 
 
+def leaf_input(network: Network, net: str) -> int | None:
+    """The op-amp whose + input is all ``net`` holds besides one resistor, or None: the net
+    is then a leaf of the network, its voltage -R Ib+ of that op-amp and nothing else."""
+    lookup = network.lookup()
+    pins = lookup.pins.get(net, [])
+    if len(pins) != 1 or len(lookup.resistors.get(net, ())) != 1:
+        return None
+    op = network.opamps[pins[0]]
+    return pins[0] if op.plus == net and net not in (op.minus, op.out) else None
+
+
 def worst_case(solution: Solution, k: int, params: list[OpampParams],
                temp_range: tuple[float, float], at: Figures = at_temperature) -> float | None:
     """Stage k's worst-case output error over the temperature range (volts): the total
@@ -274,15 +285,10 @@ class WhatIf:
         if (resistor.a in fixed) == (resistor.b in fixed):
             return None
         net = resistor.b if resistor.a in fixed else resistor.a
-        lookup = self.network.lookup()
-        pins = lookup.pins.get(net, [])
-        if lookup.resistors.get(net) != [self._refs[change.ref][0]] or len(pins) != 1:
-            return None
-        op = self.network.opamps[pins[0]]
+        k = leaf_input(self.network, net)  # the one resistor there is this one
         system = self.solution.systems[index]
         row = system.net_rows.get(net)
-        if (op.plus != net or op.minus == net or op.out == net or row is None
-                or pins[0] not in system.out_rows):
+        if k is None or row is None or k not in system.out_rows:
             return None  # not a + input of a solved stage whose output is a row
         keep = [i for i in range(system.base.shape[0]) if i != row]
 
