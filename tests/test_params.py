@@ -184,8 +184,9 @@ def test_input_type_from_the_symbol_description(words, kind, label):
 @pytest.mark.parametrize("temp", [50.0, 85.0, 125.0])
 def test_a_falling_current_is_held_at_its_hot_value_past_t_hot(temp):
     # A bipolar input's bias current falling from 100 nA at 25 °C to 10 nA at T_hot 50 °C:
-    # linear up to 50 °C, then held at 10 nA (a maximum is not extrapolated down; the
-    # straight line would reach -8 nA at 55 °C and -350 nA at 125 °C). A rising one goes
+    # linear up to 50 °C, then held at 10 nA (common practice: a maximum is not
+    # extrapolated below the last figure a datasheet gives; the straight line would reach
+    # -8 nA at 55 °C and -350 nA at 125 °C, worked by hand). A rising one goes
     # on rising: 10 nA -> 20 nA at 50 °C gives 25 nA at 62.5 °C (linear, as before).
     falling = from_library("OPX-B", {"input": "bipolar", "vos": "1mV", "ib": "100nA",
                                      "ios": "10nA", "ib_hot": "10nA", "ios_hot": "1nA",
