@@ -29,7 +29,7 @@ MODEL_ASSUMPTIONS = (
     "over temperature: the worst case at each end of the range, the larger; Vos grows by "
     "TCVos per °C away from 25 °C; without hot values, FET-input bias currents double every "
     "10 °C and bipolar ones are flat; hot values apply at the part's T_hot or else at the "
-    "top of the range",
+    "top of the range, and past T_hot a falling bias current is held at its hot value",
     "Monte Carlo: resistors uniform within tolerance; Vos, Ib, Ios Gaussian with the "
     "maximum as 3 sigma, truncated at the maximum, and random sign; 99.7 % bound at the "
     "worse end of the temperature range",
